@@ -53,3 +53,64 @@ def _fsync_dir(folder):
             os.fsync(fd)
         finally:
             os.close(fd)
+
+
+class OutputSet:
+    """Files that appear together or not at all.
+
+    Each file is written to a temporary name in the target folder; :meth:`commit`
+    renames them all. Leaving the ``with`` block on an exception removes the
+    temporary files (and the folder, when this set created it and it is empty).
+    """
+
+    def __init__(self, folder):
+        self.folder = Path(folder)
+        self._pending = []
+        self._created = False
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, exc_type, exc, tb):
+        if exc_type is not None:
+            self.discard()
+        return False
+
+    def path(self, name):
+        """A temporary path to write ``name`` into; it becomes ``folder/name`` on commit."""
+        if not self.folder.exists():
+            self.folder.mkdir(parents=True)
+            self._created = True
+        fd, tmp = tempfile.mkstemp(prefix=f".{name}.", suffix=".part" + Path(name).suffix,
+                                   dir=self.folder)
+        os.close(fd)
+        self._pending.append((Path(tmp), self.folder / name))
+        return Path(tmp)
+
+    def text(self, name, text):
+        self.path(name).write_text(text, encoding="utf-8")
+
+    def bytes(self, name, data):
+        self.path(name).write_bytes(data)
+
+    def commit(self):
+        """fsync every file, then rename them into place; returns the final paths."""
+        for tmp, _ in self._pending:
+            with open(tmp, "rb+") as fh:
+                os.fsync(fh.fileno())
+        final = []
+        for tmp, dest in self._pending:
+            os.replace(tmp, dest)
+            final.append(dest)
+        _fsync_dir(self.folder)
+        self._pending = []
+        return final
+
+    def discard(self):
+        for tmp, _ in self._pending:
+            with contextlib.suppress(FileNotFoundError):
+                os.unlink(tmp)
+        self._pending = []
+        if self._created:
+            with contextlib.suppress(OSError):
+                self.folder.rmdir()

@@ -1,0 +1,123 @@
+"""Result files of a solve: ``solution.vtu``, ``summary.json``, ``field.png``.
+
+All files of one run are written through :class:`~lapsolve.atomic.OutputSet`:
+they appear together, complete, or not at all.
+"""
+
+import json
+
+import meshio
+import numpy as np
+
+from .atomic import OutputSet
+
+SUMMARY_SCHEMA = "lapsolve.summary/1"
+
+
+def cell_flux(solution):
+    """Mean of ``-k grad u`` over each triangle, shape (n_triangles, 2)."""
+    grad = solution.basis.interpolate(solution.u).grad  # (2, nel, nqp)
+    g = grad.mean(axis=2).T
+    return -solution.disc.k_cell[:, None] * g
+
+
+def vtu_mesh(solution):
+    """A meshio mesh with u, region ids, flux and boundary-part tags."""
+    from .solve import segment_parts
+
+    mesh = solution.mesh
+    if solution.order == 2:
+        points = solution.basis.doflocs.T
+        tri = ("triangle6", solution.basis.element_dofs.T)
+        u = solution.u
+    else:
+        points = mesh.points
+        tri = ("triangle", solution.disc.skmesh.t.T[:, :3] if solution.order == 1
+               else mesh.triangles)
+        u = solution.vertex_values()
+        if solution.order == 1:
+            tri = ("triangle", mesh.triangles)
+    bnd = mesh.boundary_mask()
+    lines = mesh.segments[bnd]
+    parts = segment_parts(solution.problem, mesh)[bnd]
+    flux = cell_flux(solution)
+    pts3 = np.column_stack([points, np.zeros(len(points))])
+    n_tri, n_line = len(tri[1]), len(lines)
+    return meshio.Mesh(
+        pts3, [tri, ("line", lines)],
+        point_data={"u": np.asarray(u, float)},
+        cell_data={
+            "region": [mesh.regions.astype(np.int32), np.full(n_line, -1, np.int32)],
+            "flux": [np.column_stack([flux, np.zeros(n_tri)]), np.zeros((n_line, 3))],
+            "boundary_part": [np.full(n_tri, -1, np.int32), parts.astype(np.int32)],
+        },
+    )
+
+
+def summary(solution, probes=None):
+    """Plain-data summary of a solve (the content of ``summary.json``)."""
+    from .mesh import quality
+
+    phys = solution.problem.physics
+    out = {
+        "schema": SUMMARY_SCHEMA,
+        "problem": solution.problem.name,
+        "origin": solution.problem.origin,
+        "physics": phys.kind,
+        "order": solution.order,
+        "dofs": solution.dofs,
+        "elements": solution.mesh.n_triangles,
+        "curved_boundary_elements": bool(solution.disc.curved),
+        "solver": solution.solver.to_dict(),
+        "flux_unit": phys.flux_unit,
+        "fluxes": solution.fluxes,
+        "flux_balance": {"sum_of_part_fluxes": sum(solution.fluxes.values())},
+        "energy": solution.energy,
+        "capacity": solution.capacity,
+        "capacity_label": phys.capacity_label,
+        "capacity_unit": phys.capacity_unit,
+        "mesh_quality": quality(solution.mesh),
+        "seconds": solution.timings,
+        "notes": solution.notes,
+    }
+    if probes is not None and len(probes):
+        u, g = solution.evaluate(probes)
+        k = solution.disc.k_cell  # flux needs the local coefficient; report the field
+        del k
+        out["probes"] = [{"x": float(p[0]), "y": float(p[1]), "u": float(v),
+                          "field": [float(-gi[0]), float(-gi[1])]}
+                         for p, v, gi in zip(probes, u, g)]
+    return out
+
+
+def write_results(solution, folder, probes=None, picture=True):
+    """Write ``solution.vtu``, ``summary.json`` and ``field.png`` into ``folder``.
+
+    Returns
+    -------
+    dict
+        The summary that was written.
+    """
+    import time
+
+    data = summary(solution, probes)
+    t0 = time.perf_counter()
+    with OutputSet(folder) as out:
+        meshio.write(out.path("solution.vtu"), vtu_mesh(solution), file_format="vtu",
+                     compression=None)
+        if picture:
+            from .plotting import field_png
+
+            out.bytes("field.png", field_png(solution))
+        data["seconds"]["write"] = time.perf_counter() - t0
+        out.text("summary.json", json.dumps(data, indent=2, default=_jsonable))
+        out.commit()
+    return data
+
+
+def _jsonable(obj):
+    if isinstance(obj, np.generic):
+        return obj.item()
+    if isinstance(obj, np.ndarray):
+        return obj.tolist()
+    raise TypeError(type(obj).__name__)
