@@ -19,7 +19,17 @@ def _decimal(value):
     return np.format_float_positional(value, precision=12, trim="-")
 
 
-def _pslg(problem):
+class _Controls:
+    """Mesh controls plus an optional extra size field."""
+
+    def __init__(self, controls, size_field):
+        self.max_size = controls.max_size
+        self.min_angle = controls.min_angle
+        self.grading = controls.grading
+        self.extra = size_field
+
+
+def _pslg(problem, controls):
     """Vertices, segments, markers and tag table of the planar straight-line graph."""
     vertices, segments, markers, tags = [], [], [], []
     offset = 0
@@ -27,7 +37,7 @@ def _pslg(problem):
     loops = [(lp, True) for lp in problem.loops()]
     loops += [(r.loop, False) for r in problem.regions]
     for loop, on_boundary in loops:
-        pts, edge_of_seg = loop.discretized(_loop_size(loop, problem.mesh))
+        pts, edge_of_seg = loop.discretized(_loop_size(loop, controls))
         n = len(pts)
         circle = ((*loop.center, loop.radius) if isinstance(loop, CircleLoop) else None)
         ids = np.arange(n) + offset
@@ -56,7 +66,7 @@ def _segment_key(a, b):
     return (a, b) if a <= b else (b, a)
 
 
-def triangulate(problem, size=None):
+def triangulate(problem, size=None, size_field=None):
     """Mesh the domain of ``problem`` with the controls in ``problem.mesh``.
 
     Parameters
@@ -64,6 +74,9 @@ def triangulate(problem, size=None):
     problem : Problem
     size : float, optional
         Override of ``problem.mesh.max_size``.
+    size_field : callable, optional
+        ``(points (n, 2)) -> sizes (n,)``, an extra local size limit (graded
+        meshes toward singular corners); combined with the file's grading by min.
 
     Returns
     -------
@@ -74,7 +87,8 @@ def triangulate(problem, size=None):
     if size != controls.max_size:
         problem = problem.with_mesh(max_size=size)
         controls = problem.mesh
-    verts, segs, markers, tags = _pslg(problem)
+    controls = _Controls(controls, size_field)
+    verts, segs, markers, tags = _pslg(problem, controls)
     verts, segs = _merge_duplicates(verts, segs)
     data = {"vertices": verts, "segments": segs, "segment_markers": markers}
     holes = [interior_point(h) for h in problem.holes]
@@ -88,7 +102,7 @@ def triangulate(problem, size=None):
     check_size(int(2.5 * domain_area / area), "the requested mesh")
     quality_switch = f"q{_decimal(controls.min_angle)}"
     out = triangle.triangulate(data, f"p{quality_switch}a{_decimal(area)}AQ")
-    if controls.grading:
+    if controls.grading or size_field is not None:
         out = _graded(out, controls, f"rp{quality_switch}Q")
     mesh = _to_mesh(out, tags)
     log.debug("triangulated %d triangles", mesh.n_triangles)
@@ -121,6 +135,8 @@ def _size_field(points, controls):
     for g in controls.grading:
         d = np.hypot(points[:, 0] - g.point[0], points[:, 1] - g.point[1])
         h = np.minimum(h, g.size + g.growth * d)
+    if controls.extra is not None:
+        h = np.minimum(h, np.asarray(controls.extra(points), float))
     return h
 
 

@@ -12,10 +12,43 @@ import sys
 
 from ..errors import LapsolveError
 
-#: Subcommand name -> module (relative to this package). The one registry of commands.
+#: Built-in subcommands: name -> module (relative to this package).
 COMMANDS = {
     "solve": ".solve_cmd",
 }
+
+#: Entry-point group through which other packages add subcommands. The
+#: ``verification`` package registers its commands there (see pyproject.toml),
+#: so this package never imports it: the layers stay one-way.
+PLUGIN_GROUP = "lapsolve.commands"
+
+
+def _command_modules():
+    for name, module in COMMANDS.items():
+        yield name, importlib.import_module(module, __name__)
+    from importlib.metadata import entry_points
+
+    for ep in sorted(entry_points(group=PLUGIN_GROUP), key=lambda e: e.name):
+        if ep.name not in COMMANDS:
+            try:
+                yield ep.name, ep.load()
+            except ImportError as exc:
+                yield ep.name, _Unavailable(ep.name, exc)
+
+
+class _Unavailable:
+    """Stands in for a registered command whose module cannot be imported."""
+
+    HELP = "(unavailable in this installation)"
+
+    def __init__(self, name, exc):
+        self.name, self.exc = name, exc
+
+    def add_args(self, parser):
+        parser.add_argument("rest", nargs="*")
+
+    def run(self, args):
+        raise LapsolveError(f"command '{self.name}' is unavailable: {self.exc}")
 
 
 def build_parser():
@@ -26,16 +59,11 @@ def build_parser():
     parser.add_argument("--debug", action="store_true", help="show tracebacks and debug logs")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
-    for name, module in COMMANDS.items():
-        mod = importlib.import_module(module, __name__)
+    for name, mod in _command_modules():
         p = sub.add_parser(name, help=mod.HELP, description=mod.HELP)
         mod.add_args(p)
         p.set_defaults(_run=mod.run)
     return parser
-
-
-class _Parser(argparse.ArgumentParser):
-    pass
 
 
 def main(argv=None):

@@ -60,7 +60,10 @@ def add(terms):
     for term in terms:
         for item in term.terms if isinstance(term, Add) else (term,):
             (consts if isinstance(item, Const) else flat).append(item)
-    if len(consts) == 1:
+    consts = [item for item in consts if not is_zero(item)]
+    if not consts:
+        constant = ZERO
+    elif len(consts) == 1:
         constant = consts[0]
     else:
         with np.errstate(all="ignore"):
@@ -125,6 +128,8 @@ def mul(num, den=()):
     if is_zero(c_top):
         return ZERO
     if not top and not bottom:
+        if c_bottom is ONE:
+            return neg(c_top) if negative else c_top
         with np.errstate(all="ignore"):
             value = _scalar(c_top.value) / _scalar(c_bottom.value)
         result = _const(value, f"the constant quotient {c_top.text()}/{c_bottom.text()}")

@@ -72,6 +72,16 @@ class Const:
 
     children = ()
 
+    def __post_init__(self):
+        # Signed zeros would pick the other side of a branch cut after printing
+        # and re-parsing (-0.0 prints as 0), so constants carry +0.0 only.
+        value = self.value
+        if isinstance(value, complex):
+            value = complex(value.real + 0.0, value.imag + 0.0)
+        else:
+            value = float(value) + 0.0
+        object.__setattr__(self, "value", value)
+
     @property
     def prec(self):
         if self.label:
