@@ -25,7 +25,7 @@ def boundary_fluxes(problem, disc, K, f, u, natural, robin, dirichlet):
         flow = load - (robin[name] @ u if name in robin else 0.0)
         inflow_nat[name] = flow
         reaction = reaction - flow
-    share = np.zeros(disc.basis.N)
+    share = np.zeros(disc.n_dofs)
     dofs = {name: part_dofs(disc, facets) for name, (facets, _) in dirichlet.items()}
     for d in dofs.values():
         share[d] += 1
