@@ -7,8 +7,18 @@ midpoint sits on the circle, so the boundary is represented to O(h^3).
 from dataclasses import dataclass
 
 import numpy as np
-from skfem import (Basis, BilinearForm, ElementTriP1, ElementTriP2, ElementTriP3, FacetBasis,
-                   LinearForm, MeshTri, MeshTri2, asm)
+from skfem import (
+    Basis,
+    BilinearForm,
+    ElementTriP1,
+    ElementTriP2,
+    ElementTriP3,
+    FacetBasis,
+    LinearForm,
+    MeshTri,
+    MeshTri2,
+    asm,
+)
 from skfem.helpers import dot, grad
 
 ELEMENTS = {1: ElementTriP1, 2: ElementTriP2, 3: ElementTriP3}

@@ -35,20 +35,25 @@ class SolveInfo:
         return asdict(self)
 
 
-def solve_linear(A, b, method="auto", rtol=1e-10, atol=0.0, maxiter=2000, callback=None):
+def solve_linear(A, b, method="auto", rtol=1e-10, atol=0.0, maxiter=2000, callback=None,
+                 multilevel=None):
     """Solve the SPD system ``A x = b``.
 
     Parameters
     ----------
     A : scipy.sparse matrix, symmetric positive definite
     b : ndarray
-    method : {"auto", "direct", "amg"}
-        ``auto`` picks ``direct`` up to :data:`DIRECT_LIMIT` unknowns, else ``amg``.
+    method : {"auto", "direct", "amg", "gmg"}
+        ``auto`` picks ``direct`` up to :data:`DIRECT_LIMIT` unknowns, else ``gmg``
+        when a geometric hierarchy is given, else ``amg`` (smoothed aggregation).
     rtol, atol : float
         Stopping rule of the iterative solver (see module docstring).
     maxiter : int
     callback : callable, optional
         Called with the current iterate after each CG iteration.
+    multilevel : callable, optional
+        ``() -> pyamg MultilevelSolver`` built from the mesh hierarchy
+        (:func:`lapsolve.multigrid.hierarchy`); needed by ``gmg``.
 
     Returns
     -------
@@ -57,10 +62,16 @@ def solve_linear(A, b, method="auto", rtol=1e-10, atol=0.0, maxiter=2000, callba
     """
     n = A.shape[0]
     if method == "auto":
-        method = "direct" if n <= DIRECT_LIMIT else "amg"
+        method = "direct" if n <= DIRECT_LIMIT else ("gmg" if multilevel else "amg")
     if method not in SOLVERS:
         raise SolverError(f"unknown linear solver '{method}' (choose from {', '.join(SOLVERS)})")
-    x, info = SOLVERS[method](A, b, rtol, atol, maxiter, callback)
+    if method == "gmg":
+        if multilevel is None:
+            raise SolverError("the geometric multigrid solver needs P1 or P2 on a uniformly "
+                              "refined mesh (use --refine, or choose --solver amg)")
+        x, info = _krylov(A, b, rtol, atol, maxiter, callback, multilevel, "gmg")
+    else:
+        x, info = SOLVERS[method](A, b, rtol, atol, maxiter, callback)
     if not np.all(np.isfinite(x)):
         raise SolverError("the linear solve produced NaN or infinite values; "
                           "the system is singular or the data are not finite")
@@ -86,8 +97,17 @@ def _direct(A, b, rtol, atol, maxiter, callback):
 def _amg(A, b, rtol, atol, maxiter, callback):
     import pyamg
 
+    def setup():
+        return pyamg.smoothed_aggregation_solver(A.tocsr(), symmetry="symmetric",
+                                                 max_coarse=500)
+
+    return _krylov(A, b, rtol, atol, maxiter, callback, setup, "amg")
+
+
+def _krylov(A, b, rtol, atol, maxiter, callback, setup, name):
+    """CG preconditioned by one V-cycle of the multilevel solver ``setup()`` returns."""
     t0 = time.perf_counter()
-    ml = pyamg.smoothed_aggregation_solver(A.tocsr(), symmetry="symmetric", max_coarse=500)
+    ml = setup()
     M = ml.aspreconditioner(cycle="V")
     t1 = time.perf_counter()
     count = [0]
@@ -102,10 +122,10 @@ def _amg(A, b, rtol, atol, maxiter, callback):
     res = _residual(A, b, x)
     converged = flag == 0
     if not converged:
-        log.warning("AMG-CG stopped after %d iterations at relative residual %.2e (rtol %.1e)",
-                    count[0], res, rtol)
-    return x, SolveInfo("amg", A.shape[0], count[0], float(res), rtol, converged,
+        log.warning("%s-CG stopped after %d iterations at relative residual %.2e (rtol %.1e)",
+                    name, count[0], res, rtol)
+    return x, SolveInfo(name, A.shape[0], count[0], float(res), rtol, converged,
                         t1 - t0, t2 - t1)
 
 
-SOLVERS = {"direct": _direct, "amg": _amg}
+SOLVERS = {"direct": _direct, "amg": _amg, "gmg": None}

@@ -34,6 +34,9 @@ class Mesh:
     segment_tags: np.ndarray
     tags: tuple
     level: int = 0
+    #: One entry per uniform refinement that produced this mesh: the parent vertex
+    #: pairs ``(lo, hi)`` of the new midpoint vertices (geometric multigrid uses them).
+    parents: tuple = ()
 
     @property
     def n_triangles(self):
@@ -97,7 +100,8 @@ def _refine_once(mesh):
     segments = np.vstack([np.column_stack([seg[:, 0], smid]),
                           np.column_stack([smid, seg[:, 1]])])
     return Mesh(new_pts, tri, np.tile(mesh.regions, 4), segments,
-                np.tile(mesh.segment_tags, 2), mesh.tags, mesh.level + 1)
+                np.tile(mesh.segment_tags, 2), mesh.tags, mesh.level + 1,
+                mesh.parents + ((lo, hi),))
 
 
 def _snap(points, nodes, node_tags, tags):

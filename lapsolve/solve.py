@@ -125,11 +125,12 @@ def solve(problem, order=1, mesh=None, refine=0, solver="auto", rtol=None):
     if dirichlet:
         D, xD = _dirichlet_values(disc, dirichlet, notes)
         Ac, bc, lift = eliminate(A, b, D, xD)
-        w, info = solve_linear(Ac, bc, method=solver, rtol=rtol)
+        w, info = solve_linear(Ac, bc, method=solver, rtol=rtol,
+                               multilevel=_multilevel(Ac, disc, D))
         u = lift + w
         u[D] = xD
     elif robin:
-        u, info = solve_linear(A, b, method=solver, rtol=rtol)
+        u, info = solve_linear(A, b, method=solver, rtol=rtol, multilevel=_multilevel(A, disc))
     else:
         u, info = _pure_neumann(disc, A, b, solver, rtol, problem, notes)
     timings["solve"] = time.perf_counter() - t0
@@ -141,6 +142,25 @@ def solve(problem, order=1, mesh=None, refine=0, solver="auto", rtol=None):
     timings["post"] = time.perf_counter() - t0
     return Solution(problem, mesh, order, disc, u, info, fluxes, energy, capacity,
                     timings, notes)
+
+
+def _multilevel(A, disc, D=None):
+    """A deferred geometric/p-multigrid hierarchy, or None where it does not apply."""
+    mesh = disc.mesh
+    if disc.order > 2 or not mesh.parents:
+        return None
+
+    def build():
+        from .multigrid import hierarchy
+
+        fixed = None
+        if D is not None:
+            fixed = np.zeros(A.shape[0], bool)
+            fixed[D] = True
+        facets = disc.skmesh.facets if disc.order == 2 else None
+        return hierarchy(A, mesh, fixed, facets=facets)
+
+    return build
 
 
 def _boundary_terms(problem, disc, parts):
@@ -228,7 +248,8 @@ def _pure_neumann(disc, A, b, solver, rtol, problem, notes):
                          f"sum to {total:.3e}, not zero; the problem has no solution",
                          source=problem.origin, field="boundary")
     b = b - total * mass / mass.sum()
-    if solver == "amg" or (solver == "auto" and A.shape[0] > 150_000):
+    # singular system: geometric multigrid's coarse direct solve would fail, AMG copes
+    if solver in ("amg", "gmg") or (solver == "auto" and A.shape[0] > 150_000):
         u, info = solve_linear(A, b, method="amg", rtol=rtol)
     else:
         import scipy.sparse as sp

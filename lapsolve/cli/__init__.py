@@ -15,6 +15,7 @@ from ..errors import LapsolveError
 #: Built-in subcommands: name -> module (relative to this package).
 COMMANDS = {
     "solve": ".solve_cmd",
+    "bounds": ".bounds_cmd",
 }
 
 #: Entry-point group through which other packages add subcommands. The
@@ -25,7 +26,10 @@ PLUGIN_GROUP = "lapsolve.commands"
 
 def _command_modules():
     for name, module in COMMANDS.items():
-        yield name, importlib.import_module(module, __name__)
+        try:
+            yield name, importlib.import_module(module, __name__)
+        except ImportError as exc:
+            yield name, _Unavailable(name, exc)
     from importlib.metadata import entry_points
 
     for ep in sorted(entry_points(group=PLUGIN_GROUP), key=lambda e: e.name):
@@ -83,7 +87,7 @@ def main(argv=None):
     except KeyboardInterrupt:
         print("lapsolve: interrupted", file=sys.stderr)
         return 130
-    except Exception as exc:  # noqa: BLE001 - last line of defence: one line, no traceback
+    except Exception as exc:  # last line of defence: one line, no traceback
         if args.debug:
             raise
         text = " ".join(str(exc).split())[:300]

@@ -15,8 +15,10 @@ def add_args(p):
                    help="polynomial degree of the Lagrange elements (default 2)")
     p.add_argument("--refine", type=int, default=0, metavar="N",
                    help="uniform refinements after meshing (each halves h)")
-    p.add_argument("--solver", choices=("auto", "direct", "amg"), default="auto",
-                   help="linear solver (auto: direct up to 150,000 unknowns, else AMG-CG)")
+    p.add_argument("--solver", choices=("auto", "direct", "amg", "gmg"), default="auto",
+                   help="linear solver: direct; amg (smoothed-aggregation AMG-CG); gmg "
+                        "(geometric multigrid CG, refined meshes); auto (default): direct up "
+                        "to 150,000 unknowns, else gmg where the mesh was refined, else amg")
     p.add_argument("--probe", action="append", default=[], metavar="X,Y",
                    help="report u and the field at a point (repeatable)")
     p.add_argument("--out", metavar="DIR", help="folder for the result files")
