@@ -21,12 +21,19 @@ from lapsolve.formula.functions import (
     REAL_FUNCTIONS,
     FunctionSpec,
 )
-from lapsolve.formula.limits import MAX_DEPTH, MAX_EXPONENT, MAX_LENGTH, MAX_TREE_DEPTH
+from lapsolve.formula.limits import (
+    MAX_DEPTH,
+    MAX_DERIVATIVE_WORK,
+    MAX_EXPONENT,
+    MAX_LENGTH,
+    MAX_TREE_DEPTH,
+)
 
 __all__ = [
     "ANALYTIC_CONSTANTS",
     "ANALYTIC_FUNCTIONS",
     "MAX_DEPTH",
+    "MAX_DERIVATIVE_WORK",
     "MAX_EXPONENT",
     "MAX_LENGTH",
     "MAX_TREE_DEPTH",

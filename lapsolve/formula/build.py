@@ -48,10 +48,16 @@ def is_negative(value):
 def neg(node):
     """``-node``, folding constants and double negation."""
     if isinstance(node, Const):
-        return Const(-node.value)
+        return node.negated()
     if isinstance(node, Neg):
         return node.arg
+    if isinstance(node, Mul) and node.num and _is_non_real_const(node.num[0]):
+        return Mul((node.num[0].negated(),) + node.num[1:], node.den)
     return Neg(node)
+
+
+def _is_non_real_const(node):
+    return isinstance(node, Const) and node.value.imag != 0
 
 
 def add(terms):
@@ -111,7 +117,7 @@ def mul(num, den=()):
                 return
             if is_negative(node.value):
                 negative = not negative
-                node = Const(-node.value)
+                node = node.negated()
             parts[upper][1].append(node)
         else:
             parts[upper][0].append(node)
@@ -134,6 +140,8 @@ def mul(num, den=()):
             value = _scalar(c_top.value) / _scalar(c_bottom.value)
         result = _const(value, f"the constant quotient {c_top.text()}/{c_bottom.text()}")
         return neg(result) if negative else result
+    if negative and c_top.value.imag != 0:
+        negative, c_top = False, c_top.negated()  # -(2*i)*z is kept as -2*i*z
     top = ([] if c_top.value == 1 else [c_top]) + top
     bottom = ([] if c_bottom.value == 1 else [c_bottom]) + bottom
     if not top and not bottom:

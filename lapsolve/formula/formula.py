@@ -9,7 +9,7 @@ import numpy as np
 
 from lapsolve.errors import FormulaError
 from lapsolve.formula.build import ConstantError
-from lapsolve.formula.derivative import differentiate
+from lapsolve.formula.derivative import TooMuchWork, differentiate
 from lapsolve.formula.functions import (
     ANALYTIC_CONSTANTS,
     ANALYTIC_FUNCTIONS,
@@ -112,7 +112,8 @@ class Formula:
         ------
         FormulaError
             If ``variable`` is not one of the formula's variables, or the
-            derivative would be nested more than ``MAX_TREE_DEPTH`` levels deep.
+            derivative would be nested more than ``MAX_TREE_DEPTH`` levels deep or
+            need more than ``MAX_DERIVATIVE_WORK`` product-rule factors.
         """
         if variable not in self.variables:
             raise FormulaError(f"cannot differentiate with respect to {variable!r}: the "
@@ -121,8 +122,9 @@ class Formula:
         functions = ANALYTIC_FUNCTIONS if self.analytic else REAL_FUNCTIONS
         try:
             tree = differentiate(self.tree, variable, functions)
-        except (TooDeep, ConstantError) as exc:
-            raise FormulaError(f"the derivative by {variable} of {self.text!r} cannot be "
+        except (TooDeep, TooMuchWork, ConstantError) as exc:
+            shown = self.text if len(self.text) <= 60 else self.text[:57] + "..."
+            raise FormulaError(f"the derivative by {variable} of {shown!r} cannot be "
                                f"built: {exc}", self.source, self.field) from None
         return Formula(tree.text(), self.variables, self.analytic, _names_in(tree), tree,
                        self.source, self.field)

@@ -15,9 +15,9 @@ argument; ``table`` supplies the functions of the same mode.
 """
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 from types import MappingProxyType
-from typing import Callable
 
 import numpy as np
 

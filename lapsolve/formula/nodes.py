@@ -64,7 +64,7 @@ def _wrapped(node, weakest):
 
 @dataclass(frozen=True, slots=True)
 class Const:
-    """A number; ``label`` keeps the name of a named constant (pi, e, i)."""
+    """A number; ``label`` keeps the name of a named constant (pi, e, i, or -pi...)."""
 
     value: float | complex
     label: str | None = None
@@ -85,7 +85,7 @@ class Const:
     @property
     def prec(self):
         if self.label:
-            return ATOM
+            return UNARY if self.label.startswith("-") else ATOM
         value = self.value
         if isinstance(value, complex) and value.imag != 0:
             if value.real != 0 or value.imag == 1:
@@ -95,6 +95,13 @@ class Const:
 
     def text(self):
         return self.label or format_value(self.value)
+
+    def negated(self):
+        """``-self``, keeping a named constant's name (pi -> -pi -> pi)."""
+        label = self.label
+        if label:
+            label = label[1:] if label.startswith("-") else "-" + label
+        return Const(-self.value, label)
 
     def evaluate(self, env):
         return self.value
@@ -138,10 +145,11 @@ class Add:
         for term in self.terms[1:]:
             if isinstance(term, Neg):
                 parts.append(" - " + _wrapped(term.arg, PRODUCT))
-            elif isinstance(term, Const) and term.text().startswith("-"):
-                parts.append(" - " + Const(-term.value).text())
-            else:
-                parts.append(" + " + _wrapped(term, PRODUCT))
+                continue
+            text = _wrapped(term, PRODUCT)
+            # A leading '-' belongs to a constant (-2, -pi, -2*i), alone or leading
+            # a product; the parser folds ' - 2*i*z' back into the same node.
+            parts.append(" - " + text[1:] if text.startswith("-") else " + " + text)
         return "".join(parts)
 
     def evaluate(self, env):
@@ -256,9 +264,16 @@ class Call:
 
 
 def walk(tree):
-    """Yield every node of ``tree`` (iteratively, in no particular order)."""
-    stack = [tree]
+    """Yield every distinct node object of ``tree`` once (iteratively, in no set order).
+
+    Derivatives share subtrees, so visiting each object once keeps this linear
+    in the number of objects.
+    """
+    stack, seen = [tree], set()
     while stack:
         node = stack.pop()
+        if id(node) in seen:
+            continue
+        seen.add(id(node))
         yield node
         stack.extend(node.children)

@@ -15,12 +15,16 @@ from dataclasses import dataclass
 from lapsolve.errors import FormulaError
 from lapsolve.formula.limits import MAX_DEPTH, MAX_LENGTH
 
-_TOKEN = re.compile(r"""
-    (?P<space>[ \t\r\n]+)
-  | (?P<number>(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)
-  | (?P<name>[A-Za-z_][A-Za-z0-9_]*)
-  | (?P<op>\*\*|//|[-+*/(),])
-""", re.VERBOSE)
+# Every character belongs to exactly one piece; the last alternative catches the
+# characters the grammar refuses. Pieces are classified by their first character.
+_PIECES = re.compile(r"""
+    [ \t\r\n]+
+  | (?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?
+  | [A-Za-z_][A-Za-z0-9_]*
+  | \*\*|//|[-+*/(),]
+  | .
+""", re.VERBOSE | re.DOTALL)
+_OPERATORS = frozenset(["**", "//", "-", "+", "*", "/", "(", ")", ","])
 
 _NON_ASCII = re.compile(r"[^\x00-\x7f]")
 
@@ -89,30 +93,32 @@ def tokenize(text, source=None, field=None):
     if not text.strip():
         raise fail("empty formula")
     tokens, open_columns, position = [], [], 0
-    while position < len(text):
-        match = _TOKEN.match(text, position)
-        column = position + 1
-        if match is None:
-            raise fail(_character_message(text, position))
-        kind, value = match.lastgroup, match.group()
-        position = match.end()
-        if kind == "space":
+    for value in _PIECES.findall(text):
+        start, position = position, position + len(value)
+        first, column = value[0], start + 1
+        if first in " \t\r\n":
             continue
-        if kind == "number":
+        if value in _OPERATORS:
+            kind = "op"
+            if value == "(":
+                open_columns.append(column)
+                if len(open_columns) > MAX_DEPTH:
+                    raise fail(f"'(' at column {column} nests parentheses more than "
+                               f"{MAX_DEPTH} levels deep")
+            elif value == ")":
+                if not open_columns:
+                    raise fail(f"unmatched ')' at column {column}")
+                open_columns.pop()
+            elif value == "//":
+                raise fail(f"'//' at column {column} is not allowed (floor division); use /")
+        elif first.isdigit() or (first == "." and len(value) > 1):
+            kind = "number"
             _check_after_number(text, position, value, column, fail)
-        elif kind == "name":
+        elif first.isalpha() or first == "_":
+            kind = "name"
             _check_name(value, column, fail)
-        elif value == "//":
-            raise fail(f"'//' at column {column} is not allowed (floor division); use /")
-        elif value == "(":
-            open_columns.append(column)
-            if len(open_columns) > MAX_DEPTH:
-                raise fail(f"'(' at column {column} nests parentheses more than "
-                           f"{MAX_DEPTH} levels deep")
-        elif value == ")":
-            if not open_columns:
-                raise fail(f"unmatched ')' at column {column}")
-            open_columns.pop()
+        else:
+            raise fail(_character_message(text, start))
         tokens.append(Token(kind, value, column))
     if open_columns:
         raise fail(f"unclosed '(' at column {open_columns[-1]}")
