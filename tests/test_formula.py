@@ -332,11 +332,13 @@ HOSTILE = {
 
 @pytest.mark.parametrize("text", HOSTILE.values(), ids=HOSTILE.keys())
 def test_hostile_input_is_refused_quickly(text):
-    start = time.perf_counter()
+    # CPU time of this process: the limit is about work done, and wall time on a
+    # shared CI machine measures the neighbours too
+    start = time.process_time()
     with pytest.raises(FormulaError):
         parse(text, source="p.toml", field="boundary.anode.value")
-    elapsed = time.perf_counter() - start
-    assert elapsed < 0.1, f"refusal took {elapsed:.3f} s"
+    elapsed = time.process_time() - start
+    assert elapsed < 0.1, f"refusal took {elapsed:.3f} s of CPU"
 
 
 def test_no_formula_path_reaches_eval_exec_or_compile(monkeypatch):
@@ -416,7 +418,7 @@ def test_limits_are_exact():
 def test_deepest_formulas_evaluate_and_differentiate_without_recursion_error(text):
     f = parse(text)
     f(x=XS, y=YS)
-    start = time.perf_counter()
+    start = time.process_time()
     try:
         df = f.derivative("x")
     except FormulaError as exc:
@@ -426,7 +428,7 @@ def test_deepest_formulas_evaluate_and_differentiate_without_recursion_error(tex
         df(x=XS, y=YS)
         str(df)
     # common practice, no source: a generous bound that catches exponential blow-up
-    assert time.perf_counter() - start < 2.0
+    assert time.process_time() - start < 2.0
 
 
 def test_function_tables_hold_the_documented_names():
