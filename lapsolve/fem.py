@@ -186,14 +186,14 @@ def p1_stiffness(points, triangles, k):
 def source_vector(disc, source):
     if source is None:
         return np.zeros(disc.basis.N)
-    x = disc.basis.global_coordinates().value
+    x = np.asarray(disc.basis.global_coordinates())
     return asm(weighted, disc.basis, g=source(x[0], x[1]))
 
 
 def boundary_vector(fbasis, data):
     """``int g v ds`` with ``g = data(x, y, nx, ny)`` at the facet quadrature points."""
-    x = fbasis.global_coordinates().value
-    n = fbasis.normals.value
+    x = np.asarray(fbasis.global_coordinates())
+    n = np.asarray(fbasis.normals)
     return asm(weighted, fbasis, g=data(x[0], x[1], n[0], n[1]))
 
 

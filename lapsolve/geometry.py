@@ -16,22 +16,35 @@ MAX_POLYGON_VERTICES = 5000
 
 @dataclass(frozen=True)
 class PolygonLoop:
-    """A closed polygon, vertices counter-clockwise, last vertex not repeated."""
+    """A closed polygon, vertices counter-clockwise, last vertex not repeated.
+
+    ``edge_ids[j]`` is the user's number of the stored edge ``j -> j+1``: a polygon
+    given clockwise is stored reversed, but its edges keep the numbers of the input
+    order (edge ``i`` joins input vertices ``i`` and ``i+1``). ``None`` means ``j``.
+    """
 
     name: str
     vertices: np.ndarray
+    edge_ids: tuple = None
 
     @property
     def n_edges(self):
         return len(self.vertices)
 
+    def edge_labels(self):
+        """User edge number of each stored edge."""
+        if self.edge_ids is None:
+            return np.arange(len(self.vertices))
+        return np.asarray(self.edge_ids, int)
+
     def edge_points(self, edge):
-        return self.vertices[edge], self.vertices[(edge + 1) % len(self.vertices)]
+        """End points of edge ``edge``, in counter-clockwise order."""
+        j = int(np.flatnonzero(self.edge_labels() == edge)[0])
+        return self.vertices[j], self.vertices[(j + 1) % len(self.vertices)]
 
     def discretized(self, size=None):
-        """Vertices and, per segment, the edge index it belongs to."""
-        n = len(self.vertices)
-        return self.vertices, np.arange(n)
+        """Vertices and, per segment, the edge number it belongs to."""
+        return self.vertices, self.edge_labels()
 
     def area(self):
         return polygon_area(self.vertices)
@@ -156,10 +169,13 @@ def make_polygon(name, vertices, source=None, field=None):
                             source, field)
     area = polygon_area(v)
     if abs(area) <= 1e-12 * size**2:
+        _check_crossings(v, source, field)  # a symmetric figure-eight also has zero area
         raise GeometryError("polygon has zero area", source, field)
     _check_simple(v, source, field)
     if area < 0:
-        v = v[::-1].copy()
+        # stored edge j (reversed vertices j -> j+1) is input edge n-2-j
+        labels = (len(v) - 2 - np.arange(len(v))) % len(v)
+        return PolygonLoop(name, v[::-1].copy(), tuple(int(i) for i in labels))
     return PolygonLoop(name, v)
 
 
@@ -177,7 +193,7 @@ def make_circle(name, center, radius, source=None, field=None):
     return CircleLoop(name, c, r)
 
 
-def _check_simple(v, source, field):
+def _check_crossings(v, source, field):
     n = len(v)
     a0, a1 = v, np.roll(v, -1, axis=0)
     hit = segments_intersect(a0, a1, a0, a1, eps=1e-12)
@@ -185,16 +201,21 @@ def _check_simple(v, source, field):
     adjacent = (np.abs(idx[:, None] - idx[None, :]) <= 1) | \
                (np.abs(idx[:, None] - idx[None, :]) == n - 1)
     hit &= ~adjacent
+    if np.any(hit):
+        i, j = np.argwhere(hit)[0]
+        raise GeometryError(f"polygon is self-intersecting: edge {i} crosses edge {j}",
+                            source, field)
+
+
+def _check_simple(v, source, field):
+    n = len(v)
+    _check_crossings(v, source, field)
     # Collinear overlaps and vertices touching non-adjacent edges also break simplicity.
     touch = _vertex_on_edges(v) & ~adjacent_vertex_edge(n)
-    if np.any(hit) or np.any(touch):
-        if np.any(hit):
-            i, j = np.argwhere(hit)[0]
-            msg = f"polygon is self-intersecting: edge {i} crosses edge {j}"
-        else:
-            i, j = np.argwhere(touch)[0]
-            msg = f"polygon is not simple: vertex {i} lies on edge {j}"
-        raise GeometryError(msg, source, field)
+    if np.any(touch):
+        i, j = np.argwhere(touch)[0]
+        raise GeometryError(f"polygon is not simple: vertex {i} lies on edge {j}",
+                            source, field)
     # Fold-back of adjacent edges (a spike of zero width) is also invalid.
     d_prev = v - np.roll(v, 1, axis=0)
     d_next = np.roll(v, -1, axis=0) - v

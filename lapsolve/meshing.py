@@ -103,7 +103,8 @@ def triangulate(problem, size=None, size_field=None):
     quality_switch = f"q{_decimal(controls.min_angle)}"
     out = triangle.triangulate(data, f"p{quality_switch}a{_decimal(area)}AQ")
     if controls.grading or size_field is not None:
-        out = _graded(out, controls, f"rp{quality_switch}Q")
+        # a bare 'a' makes triangle honour the per-triangle areas passed with 'r'
+        out = _graded(out, controls, f"rp{quality_switch}aQ")
     mesh = _to_mesh(out, tags)
     log.debug("triangulated %d triangles", mesh.n_triangles)
     return snap_to_curves(mesh)

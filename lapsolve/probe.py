@@ -42,6 +42,6 @@ def evaluate(disc, u, points):
         cb = CellBasis(disc.skmesh, disc.basis.elem, elements=np.array([cell]),
                        quadrature=(local, np.ones(1)))
         field = cb.interpolate(u)
-        values[i] = field.value[0, 0]
+        values[i] = np.asarray(field)[0, 0]
         grads[i] = field.grad[:, 0, 0]
     return values, grads

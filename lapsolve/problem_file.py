@@ -12,8 +12,17 @@ import numpy as np
 
 from .errors import GeometryError, InputError
 from .geometry import loop_inside, loops_overlap, make_circle, make_polygon
-from .problem import (CONDITION_KINDS, PHYSICS, BoundaryPart, Condition, Grading, MeshControls,
-                      Problem, Region, constant)
+from .problem import (
+    CONDITION_KINDS,
+    PHYSICS,
+    BoundaryPart,
+    Condition,
+    Grading,
+    MeshControls,
+    Problem,
+    Region,
+    constant,
+)
 
 TOP_KEYS = {"title", "description", "physics", "coefficient", "source", "outer", "holes",
             "regions", "boundary", "mesh", "exact"}
@@ -92,7 +101,14 @@ class _Reader:
                 return self._checked_constant(formula(x=np.zeros(1), y=np.zeros(1))[0], field)
 
             def g(x, y, nx=None, ny=None):
-                return formula(x=x, y=y)
+                values = np.asarray(formula(x=x, y=y), float)
+                bad = ~np.isfinite(values)
+                if np.any(bad):
+                    i = np.flatnonzero(bad.ravel())[0]
+                    at = (np.ravel(x)[i], np.ravel(y)[i])
+                    self.fail(field, f"evaluates to {values.ravel()[i]} at "
+                                     f"(x, y) = ({at[0]:.6g}, {at[1]:.6g})")
+                return values
 
             g.text = value
             return g
@@ -258,8 +274,9 @@ def _parts(rd, data, problem):
             edges = tuple(edges)
         for e in edges if edges is not None else range(loop.n_edges):
             if (loop_name, e) in owner:
-                rd.fail(f"{f}.edges", f"edge {e} of loop '{loop_name}' already has a condition "
-                                      f"from part '{owner[(loop_name, e)]}'")
+                rd.fail(f"{f}.edges" if edges is not None else f,
+                        f"edge {e} of loop '{loop_name}' already has a condition "
+                        f"from part '{owner[(loop_name, e)]}'")
             owner[(loop_name, e)] = name
         parts.append(BoundaryPart(name, loop_name, edges, _condition(rd, spec, f)))
     return tuple(parts)

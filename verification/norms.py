@@ -74,7 +74,7 @@ def error_norms(basis, uh, exact_u, exact_grad, coefficient=None, mean_free=Fals
     """
     q = quadrature_degree(basis.elem.maxdeg)
     fine = CellBasis(basis.mesh, basis.elem, intorder=q)
-    x = fine.global_coordinates().value
+    x = np.asarray(fine.global_coordinates())
     ue = exact_u(x[0], x[1])
     gx, gy = exact_grad(x[0], x[1])
     k = _coefficient_at(coefficient, x, fine)
@@ -83,7 +83,7 @@ def error_norms(basis, uh, exact_u, exact_grad, coefficient=None, mean_free=Fals
     shift = 0.0
     if mean_free:
         area = _integral.assemble(fine, g=ones)
-        shift = (_integral.assemble(fine, g=ue) - _integral.assemble(fine, g=uh_field.value)) / area
+        shift = (_integral.assemble(fine, g=ue) - _integral.assemble(fine, g=np.asarray(uh_field))) / area
         uh = uh + shift
         uh_field = fine.interpolate(uh)
     l2 = np.sqrt(_sq_error.assemble(fine, uh=uh_field, ue=ue))
