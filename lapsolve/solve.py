@@ -118,7 +118,7 @@ def solve(problem, order=1, mesh=None, refine=0, solver="auto", rtol=None):
 
     t0 = time.perf_counter()
     lo, hi = mesh.points.min(axis=0), mesh.points.max(axis=0)
-    rtol = rtol or auto_rtol(mesh.h(), float(np.max(hi - lo)), order)
+    rtol = rtol or auto_rtol(disc.h(), float(np.max(hi - lo)), order)
     A = K + sum(robin.values()) if robin else K
     b = f + sum(natural.values()) if natural else f.copy()
     notes = []
