@@ -469,7 +469,8 @@ def _too_short(err, start, atol, target, base) -> Verdict:
         reason = (f"round-off plateau: {norm_name} error reached round-off by level {start} "
                   f"(at most {err[start:].max():.2e}), too early to measure an order.")
         return Verdict(PASS, math.nan, fitted=math.nan, reason=reason, **base)
-    where = f"before the round-off plateau at level {start}" if start < err.size else "in the sequence"
+    where = (f"before the round-off plateau at level {start}" if start < err.size
+             else "in the sequence")
     reason = (f"only {start} level{'' if start == 1 else 's'} {where}, but measuring the "
               f"{norm_name} order needs two; {target}.")
     return Verdict(INCONCLUSIVE, math.nan, fitted=math.nan, reason=reason, **base)
