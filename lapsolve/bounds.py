@@ -49,39 +49,61 @@ class GradientField:
     weight_error: np.ndarray
 
 
-def field_gradients(disc, local):
+@dataclass
+class ElementGeometry:
+    """Edge vectors ``e1 = p1 - p0``, ``e2 = p2 - p0``, twice the signed area and the
+    shape factor ``max |a| |b| / |det|`` over the corners (1 / sine of the smallest
+    angle) per triangle."""
+
+    e1: np.ndarray
+    e2: np.ndarray
+    det: np.ndarray
+    shape: np.ndarray
+
+    @classmethod
+    def of(cls, mesh):
+        p = mesh.points[mesh.triangles]
+        e1, e2 = p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]
+        det = e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0]
+        e3 = p[:, 2] - p[:, 1]
+        l1, l2, l3 = (np.sqrt(e[:, 0] ** 2 + e[:, 1] ** 2) for e in (e1, e2, e3))
+        shape = np.maximum(np.maximum(l1 * l2, l1 * l3), l2 * l3)
+        return cls(e1, e2, det, shape / np.abs(det))
+
+
+def field_gradients(disc, local, geometry=None):
     """Gradients of the field with element-local values ``local`` (n_local, n_triangles).
 
     Gradients are formed from differences to each element's first value
     (``sum_j grad phi_j = 0``), which keeps their rounding error relative to the
-    gradient itself rather than to the size of the values.
+    gradient itself rather than to the size of the values. ``geometry`` (an
+    :class:`ElementGeometry` of ``disc.mesh``) may be passed to share it between fields.
     """
-    mesh = disc.mesh
-    p = mesh.points[mesh.triangles]
-    e1, e2 = p[:, 1] - p[:, 0], p[:, 2] - p[:, 0]
-    det = e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0]
-    shape = np.linalg.norm(e1, axis=1) * np.linalg.norm(e2, axis=1) / np.abs(det)
-    weight_error = 16 * EPS * (1 + shape)
-    diff = local - local[0]
+    g = geometry or ElementGeometry.of(disc.mesh)
+    weight_error = 16 * EPS * (1 + g.shape)
     if disc.order == 1:
-        du1, du2 = diff[1], diff[2]
-        gx = (e2[:, 1] * du1 - e1[:, 1] * du2) / det
-        gy = (-e2[:, 0] * du1 + e1[:, 0] * du2) / det
-        values = np.stack([gx, gy])[:, :, None]
-        ax = (np.abs(e2[:, 1] * du1) + np.abs(e1[:, 1] * du2)) / np.abs(det)
-        ay = (np.abs(e2[:, 0] * du1) + np.abs(e1[:, 0] * du2)) / np.abs(det)
-        error = 8 * EPS * (np.hypot(ax, ay) + np.hypot(gx, gy) * shape)
-        return GradientField(values, error[:, None], 0.5 * np.abs(det)[:, None], weight_error)
+        du1, du2 = local[1] - local[0], local[2] - local[0]
+        e1x, e1y, e2x, e2y = g.e1[:, 0], g.e1[:, 1], g.e2[:, 0], g.e2[:, 1]
+        gx = (e2y * du1 - e1y * du2) / g.det
+        gy = (e1x * du2 - e2x * du1) / g.det
+        ad1, ad2 = np.abs(du1), np.abs(du2)
+        ax = np.abs(e2y) * ad1 + np.abs(e1y) * ad2
+        ay = np.abs(e2x) * ad1 + np.abs(e1x) * ad2
+        error = 8 * EPS * (np.sqrt(ax**2 + ay**2) / np.abs(g.det)
+                           + np.sqrt(gx**2 + gy**2) * g.shape)
+        return GradientField(np.stack([gx, gy])[:, :, None], error[:, None],
+                             0.5 * np.abs(g.det)[:, None], weight_error)
     basis = disc.basis
+    diff = local - local[0]
     values = np.zeros((2,) + basis.dx.shape)
     error = np.zeros(basis.dx.shape)
     for j in range(1, basis.Nbfun):
         grad = basis.basis[j][0].grad
         values += diff[j][None, :, None] * grad
-        error += np.abs(diff[j])[:, None] * np.linalg.norm(grad, axis=0)
+        error += np.abs(diff[j])[:, None] * np.sqrt(grad[0] ** 2 + grad[1] ** 2)
     # multiply-adds and the mapped basis gradients (inverse Jacobian) each add
     # a few units of rounding relative to the terms summed
-    error *= 4 * (basis.Nbfun + 8) * EPS * (1 + shape)[:, None]
+    error *= 4 * (basis.Nbfun + 8) * EPS * (1 + g.shape)[:, None]
     return GradientField(values, error, basis.dx, weight_error)
 
 
@@ -200,6 +222,7 @@ class LevelBounds:
     geometry: dict
     exact: float = None
     seconds: dict = field(default_factory=dict)
+    notes: list = field(default_factory=list)
 
     @property
     def midpoint(self):
@@ -240,7 +263,8 @@ class LevelBounds:
         out = asdict(self)
         for name in ("midpoint", "width", "relative_width", "reciprocal_product", "contains",
                      "effectivity", "upper_effectivity"):
-            out[name] = getattr(self, name)
+            value = getattr(self, name)
+            out[name] = None if isinstance(value, float) and not np.isfinite(value) else value
         return out
 
 
@@ -270,8 +294,9 @@ def level_bounds(solution, conjugate=None, solver="auto", rtol=None, exact=None,
     disc = solution.disc
     terminals = conjugate.terminals
     dofs = conjugate.element_dofs()
-    grad_u = field_gradients(disc, solution.u[dofs])
-    grad_psi = field_gradients(disc, conjugate.local_values())
+    geometry = ElementGeometry.of(disc.mesh)
+    grad_u = field_gradients(disc, solution.u[dofs], geometry)
+    grad_psi = field_gradients(disc, conjugate.local_values(), geometry)
     e_u, du = weighted_energy(grad_u, disc.k_cell)
     e_psi, dpsi = weighted_energy(grad_psi, 1.0 / disc.k_cell)
     dv2 = terminals.delta_v**2
@@ -280,14 +305,21 @@ def level_bounds(solution, conjugate=None, solver="auto", rtol=None, exact=None,
     eta, scale = orthogonality_residual(grad_u, grad_psi, disc.k_cell)
     seconds = {"conjugate": t1 - t0, "bounds": time.perf_counter() - t1}
     return LevelBounds(
-        level=level, h=solution.mesh.h(), dofs=solution.dofs,
+        level=level, h=_longest_edge(disc), dofs=solution.dofs,
         triangles=solution.mesh.n_triangles,
         lower=lower_raw / (1 + rel_psi), upper=upper_raw * (1 + rel_u),
         lower_raw=lower_raw, upper_raw=upper_raw,
         roundoff={"upper_relative": rel_u, "lower_relative": rel_psi},
         eta=eta, eta_scale=scale,
         solver_u=solution.solver.to_dict(), solver_psi=conjugate.solver.to_dict(),
-        geometry=geometry_status(solution.problem, disc), exact=exact, seconds=seconds)
+        geometry=geometry_status(solution.problem, disc), exact=exact, seconds=seconds,
+        notes=list(solution.notes) + list(conjugate.notes))
+
+
+def _longest_edge(disc):
+    f = disc.skmesh.facets
+    p = disc.mesh.points
+    return float(np.sqrt(np.max(np.sum((p[f[0]] - p[f[1]]) ** 2, axis=1))))
 
 
 @dataclass
@@ -304,6 +336,8 @@ class BoundsResult:
     electrodes: dict
     levels: list
     exact: float = None
+    resistance_label: str = ""
+    resistance_unit: str = ""
 
     def width_orders(self):
         """Observed order of the width in h between consecutive levels (h halves)."""
@@ -317,6 +351,7 @@ class BoundsResult:
             "problem": self.problem, "origin": self.origin, "physics": self.physics,
             "quantity": self.quantity, "unit": self.unit, "order": self.order,
             "topology": self.topology, "electrodes": self.electrodes, "exact": self.exact,
+            "resistance_label": self.resistance_label, "resistance_unit": self.resistance_unit,
             "width_orders": self.width_orders(),
             "levels": [lv.to_dict() for lv in self.levels],
         }
@@ -370,4 +405,5 @@ def capacity_bounds(problem, order=2, levels=3, mesh=None, solver="auto", rtol=N
         topology=topology.describe(),
         electrodes={"high": list(terminals.high), "low": list(terminals.low),
                     "v_high": terminals.v_high, "v_low": terminals.v_low},
-        levels=out, exact=exact)
+        levels=out, exact=exact, resistance_label=phys.resistance_label,
+        resistance_unit=phys.resistance_unit)

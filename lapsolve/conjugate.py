@@ -38,7 +38,7 @@ import scipy.sparse as sp
 from . import fem
 from .errors import InputError, SolverError
 from .linear import solve_linear
-from .solve import auto_rtol, eliminate, segment_parts
+from .solve import eliminate, segment_parts
 
 log = logging.getLogger(__name__)
 
@@ -212,28 +212,49 @@ def classify(problem, terminals):
 
 
 @dataclass
+class Cut:
+    """A cut of a multivalued stream function: ``psi`` jumps by ``jump`` across ``path``.
+
+    Attributes
+    ----------
+    path : ndarray
+        Vertex indices from the cut's electrode loop to the reference loop.
+    strip : ndarray
+        Triangles touching the path from its left (plus) side.
+    dofs : ndarray
+        Degrees of freedom on the path (vertices and edge interiors).
+    jump : float
+        Flux through the cut's electrode loop.
+    loop : str
+        That loop.
+    """
+
+    path: np.ndarray
+    strip: np.ndarray
+    dofs: np.ndarray
+    jump: float = 1.0
+    loop: str = ""
+
+
+@dataclass
 class Conjugate:
     """A solved stream function on the mesh of a primal solution.
 
     ``psi`` holds degrees of freedom of the primal basis (same numbering as
-    ``Solution.u``). For a ring layout they are the values on the minus side of
-    the cut; the triangles in ``strip`` (the plus side) add ``1`` at the cut's
-    degrees of freedom ``jump_dofs``: see :meth:`local_values`.
+    ``Solution.u``). With whole-loop electrodes they are the values on the minus
+    side of every cut; :meth:`local_values` adds the jumps on the plus side.
 
     Attributes
     ----------
     problem, mesh, disc, order, topology, terminals
     psi : ndarray
-    path : ndarray
-        Vertex indices of the cut (empty for a quadrilateral).
-    strip : ndarray
-        Triangles on the plus side of the cut.
-    jump_dofs : ndarray
-        Degrees of freedom on the cut.
+    cuts : list of Cut
+        Empty for a quadrilateral.
+    solver : lapsolve.linear.SolveInfo
     flux : float
         Total flux of ``J grad psi`` through each electrode (1 by construction).
-    solver : lapsolve.linear.SolveInfo
     timings : dict
+    notes : list of str
     """
 
     problem: object
@@ -243,9 +264,7 @@ class Conjugate:
     topology: Topology
     terminals: Terminals
     psi: np.ndarray
-    path: np.ndarray
-    strip: np.ndarray
-    jump_dofs: np.ndarray
+    cuts: list
     solver: object
     flux: float = 1.0
     timings: dict = field(default_factory=dict)
@@ -260,15 +279,15 @@ class Conjugate:
     def local_values(self):
         """Element-local values of the (cut) stream function, shape (n_local, n_triangles).
 
-        On the plus side of a cut the values are those of ``psi`` plus one at
-        the cut's degrees of freedom: the field the bounds integrate.
+        On the plus side of each cut the values are those of ``psi`` plus the
+        cut's jump at its degrees of freedom: the field the bounds integrate.
         """
         dofs = self.element_dofs()
         local = self.psi[dofs]
-        if len(self.strip):
-            chi = np.zeros(len(self.psi))
-            chi[self.jump_dofs] = self.flux
-            local[:, self.strip] += chi[dofs[:, self.strip]]
+        for cut in self.cuts:
+            on = np.zeros(len(self.psi), bool)
+            on[cut.dofs] = True
+            local[:, cut.strip] += cut.jump * on[dofs[:, cut.strip]]
         return local
 
 
@@ -281,7 +300,7 @@ def solve_conjugate(solution, solver="auto", rtol=None):
         A solved two-terminal problem (its discretisation is reused).
     solver : {"auto", "direct", "amg", "gmg"}
     rtol : float, optional
-        Relative residual of an iterative solve; default :func:`lapsolve.solve.auto_rtol`.
+        Relative residual of an iterative solve; default that of the primal solve.
 
     Returns
     -------
@@ -292,26 +311,18 @@ def solve_conjugate(solution, solver="auto", rtol=None):
     topology = classify(problem, terminals)
     timings = {}
     t0 = time.perf_counter()
-    parts = segment_parts(problem, mesh)
-    _check_gap(problem, mesh, parts, terminals)
+    _check_gap(problem, mesh, segment_parts(problem, mesh), terminals)
     inverse = replace(disc, k_cell=1.0 / disc.k_cell)
     A = fem.stiffness(inverse).tocsr()
     n = A.shape[0]
-    b = np.zeros(n)
     groups = [_loop_dofs(disc, mesh, name) for name in topology.free_loops]
-    path = strip = jump = np.zeros(0, int)
-    if topology.kind == "ring":
-        hi, lo = topology.electrode_loops
-        on = {name: np.unique(mesh.segments[_loop_mask(mesh, name)]) for name in (hi, lo)}
-        blocked = np.unique(mesh.segments[mesh.boundary_mask()])
-        path = cut_path(mesh, on[hi], on[lo], blocked)
-        strip = strip_triangles(mesh, path)
-        jump = _path_dofs(disc, mesh, path)
-        chi = np.zeros(n)
-        chi[jump] = 1.0
-        b = -(_strip_stiffness(inverse, strip) @ chi)
-        fixed, values = np.array([path[0]]), np.zeros(1)
+    if topology.kind == "loops":
+        cuts, reference_high = _make_cuts(mesh, disc, topology, problem.outer.name)
+        A, b, combos = _periodic_system(inverse, A, cuts, topology, reference_high)
+        fixed, values = np.array([cuts[0].path[0]]), np.zeros(1)
     else:
+        cuts, combos = [], []
+        b = np.zeros(n)
         zero = _arc_dofs(disc, mesh, topology.zero_arc)
         one = _arc_dofs(disc, mesh, topology.one_arc)
         fixed = np.concatenate([zero, one])
@@ -319,26 +330,104 @@ def solve_conjugate(solution, solver="auto", rtol=None):
     timings["assemble"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()
-    merge = _merge_matrix(n, groups) if groups else None
+    extra = A.shape[0] - n
+    merge = _merge_matrix(n, groups, extra) if groups else None
     if merge is not None:
         A, b = (merge.T @ A @ merge).tocsr(), merge.T @ b
-        col = merge.indices  # one entry per row: the reduced index of each DOF
-        fixed = col[fixed]
-    lo, hi = mesh.points.min(axis=0), mesh.points.max(axis=0)
-    rtol = rtol or auto_rtol(mesh.h(), float(np.max(hi - lo)), disc.order)
+        fixed = merge.indices[fixed]  # one entry per row: the merged index of each DOF
+    rtol = rtol or solution.solver.rtol
     Ac, bc, lift = eliminate(A, b, fixed, values)
     notes = []
-    multilevel = None if merge is not None else _multilevel(Ac, disc, fixed)
+    multilevel = _multilevel(Ac, disc, fixed) if merge is None and not extra else None
     if solver == "gmg" and multilevel is None:
         notes.append("geometric multigrid does not apply to this conjugate system: used AMG")
         solver = "amg"
     z, info = solve_linear(Ac, bc, method=solver, rtol=rtol, multilevel=multilevel)
     z = lift + z
     z[fixed] = values  # exact constraint values: psi stays admissible whatever the solve
-    psi = merge @ z if merge is not None else z
+    if merge is not None:
+        z = merge @ z
+    psi, periods = z[:n], z[n:]
+    for i, cut in enumerate(cuts):
+        cut.jump = float(sum(c.get(i, 0.0) * w for c, w in zip(combos, np.r_[1.0, periods])))
     timings["solve"] = time.perf_counter() - t0
-    return Conjugate(problem, mesh, disc, disc.order, topology, terminals, psi, path, strip,
-                     jump, info, 1.0, timings, notes)
+    return Conjugate(problem, mesh, disc, disc.order, topology, terminals, psi, cuts, info,
+                     1.0, timings, notes)
+
+
+def _make_cuts(mesh, disc, topology, outer):
+    """One cut from every electrode loop but a reference loop (the outer loop when it
+    is an electrode) to the reference loop.
+
+    Returns
+    -------
+    cuts : list of Cut
+    reference_high : bool
+        Whether the reference loop belongs to the high electrode.
+    """
+    loops = list(topology.high_loops) + list(topology.low_loops)
+    reference = outer if outer in loops else loops[0]
+    blocked = np.unique(mesh.segments[mesh.boundary_mask()])
+    target = np.unique(mesh.segments[_loop_mask(mesh, reference)])
+    cuts = []
+    for name in loops:
+        if name != reference:
+            start = np.unique(mesh.segments[_loop_mask(mesh, name)])
+            path = cut_path(mesh, start, target, blocked, disc.skmesh.facets)
+            cuts.append(Cut(path, strip_triangles(mesh, path), _path_dofs(disc, mesh, path),
+                            loop=name))
+    return cuts, reference in topology.high_loops
+
+
+def _periodic_system(inverse, A, cuts, topology, reference_high):
+    """The stream-function system with the cut jumps substituted.
+
+    The flux through a cut's loop equals its jump. With the reference loop on one
+    side, the jumps of the loops on the other side sum to the total flux 1; the
+    first of them takes ``1 - (the others)``. Every other jump is a free unknown
+    appended after the degrees of freedom.
+
+    Returns
+    -------
+    A, b : bordered matrix and load
+    combos : list of dict
+        Per column (the fixed part first, then each free jump): cut index ->
+        coefficient of that column in the cut's jump.
+    """
+    n = A.shape[0]
+    opposite = [i for i, c in enumerate(cuts)
+                if (c.loop in topology.high_loops) != reference_high]
+    first = opposite[0]
+    combos = [{first: 1.0}]
+    for i in range(len(cuts)):
+        if i == first:
+            continue
+        combos.append({i: 1.0, first: -1.0} if i in opposite else {i: 1.0})
+    chi, couple = [], []
+    for cut in cuts:
+        x = np.zeros(n)
+        x[cut.dofs] = 1.0
+        chi.append(x)
+        couple.append(_strip_stiffness(inverse, cut.strip) @ x)
+    m = len(cuts)
+    gram = np.zeros((m, m))
+    for i in range(m):
+        for j in range(i, m):
+            both = np.intersect1d(cuts[i].strip, cuts[j].strip)
+            if len(both):
+                gram[i, j] = gram[j, i] = chi[i] @ (_strip_stiffness(inverse, both) @ chi[j])
+    coef = np.zeros((len(combos), m))
+    for r, c in enumerate(combos):
+        for i, w in c.items():
+            coef[r, i] = w
+    C = np.column_stack(couple) @ coef.T  # (n, columns)
+    G = coef @ gram @ coef.T
+    b = np.concatenate([-C[:, 0], -G[1:, 0]])
+    if len(combos) == 1:
+        return A, b, combos
+    border = sp.csr_matrix(C[:, 1:])
+    full = sp.bmat([[A, border], [border.T, sp.csr_matrix(G[1:, 1:])]], format="csr")
+    return full, b, combos
 
 
 def _multilevel(A, disc, fixed):
@@ -388,22 +477,29 @@ def _arc_dofs(disc, mesh, arc):
     return disc.facet_dofs(disc.facets_of(_loop_mask(mesh, arc.loop, set(arc.edges))))
 
 
-def _merge_matrix(n, groups):
-    """0/1 matrix (n, m) mapping merged unknowns to DOFs: each group becomes one unknown."""
-    rep = np.arange(n)
+def _merge_matrix(n, groups, extra=0):
+    """0/1 matrix mapping merged unknowns to unknowns: each group of DOFs becomes one.
+
+    The ``extra`` unknowns after the ``n`` degrees of freedom are kept as they are.
+    """
+    rep = np.arange(n + extra)
     for g in groups:
         rep[g] = g[0]
     _, col = np.unique(rep, return_inverse=True)
-    return sp.csr_matrix((np.ones(n), col, np.arange(n + 1)), shape=(n, int(col.max()) + 1))
+    total = n + extra
+    return sp.csr_matrix((np.ones(total), col, np.arange(total + 1)),
+                         shape=(total, int(col.max()) + 1))
 
 
-def cut_path(mesh, start, end, blocked=()):
+def cut_path(mesh, start, end, blocked=(), edges=None):
     """Shortest path of mesh edges from a vertex in ``start`` to one in ``end``.
 
     Edge lengths are Euclidean, so the path has no chords: two path vertices that
     are not consecutive are never joined by a mesh edge (the triangle inequality
     is strict for non-degenerate triangles). Interior vertices of the path avoid
     ``blocked`` (other boundary vertices) and the start and end sets.
+    ``edges`` (2, n_edges) lists each mesh edge once (default: found from the
+    triangles).
 
     Returns
     -------
@@ -413,17 +509,19 @@ def cut_path(mesh, start, end, blocked=()):
     from scipy.sparse.csgraph import dijkstra
 
     n = len(mesh.points)
-    t = mesh.triangles
-    a = np.concatenate([t[:, 0], t[:, 1], t[:, 2], t[:, 1], t[:, 2], t[:, 0]])
-    b = np.concatenate([t[:, 1], t[:, 2], t[:, 0], t[:, 0], t[:, 1], t[:, 2]])
+    if edges is None:
+        t = mesh.triangles
+        edges = np.unique(np.sort(np.vstack([t[:, [0, 1]], t[:, [1, 2]], t[:, [2, 0]]]),
+                                  axis=1), axis=0).T
+    a = np.concatenate([edges[0], edges[1]])
+    b = np.concatenate([edges[1], edges[0]])
     role = np.zeros(n, np.int8)
     role[np.asarray(blocked, int)] = 3
     role[start] = 1
     role[end] = 2
     # directed moves: out of start or interior vertices, into interior or end vertices
     keep = (role[a] <= 1) & ((role[b] == 0) | (role[b] == 2))
-    keys = np.unique(a[keep].astype(np.int64) * n + b[keep])
-    src, dst = keys // n, keys % n
+    src, dst = a[keep], b[keep]
     length = np.linalg.norm(mesh.points[src] - mesh.points[dst], axis=1)
     graph = sp.csr_matrix((length, (src, dst)), shape=(n, n))
     dist, pred, _ = dijkstra(graph, indices=np.asarray(start, int), min_only=True,
@@ -536,30 +634,34 @@ def stream_function_vertex_values(conjugate, all_dofs=False):
 def cut_triangulation(conjugate):
     """Points, triangles and vertex values of the stream function, cut open.
 
-    For a ring layout the path vertices are doubled: the strip triangles use
-    copies that carry the value plus one, so ``psi`` is continuous on the result.
+    Every triangle gets its own three vertices with its local values, so a
+    multivalued stream function shows no seam along its cuts.
+
+    Returns
+    -------
+    points : ndarray (3 n_triangles, 2)
+    triangles : ndarray (n_triangles, 3)
+    values : ndarray (3 n_triangles,)
     """
     mesh = conjugate.mesh
-    values = stream_function_vertex_values(conjugate)
-    points, triangles = mesh.points, mesh.triangles
-    if len(conjugate.path):
-        n = len(points)
-        path = conjugate.path
-        copy = np.full(n, -1)
-        copy[path] = n + np.arange(len(path))
-        points = np.vstack([points, points[path]])
-        values = np.concatenate([values, values[path] + conjugate.flux])
-        triangles = triangles.copy()
-        sub = triangles[conjugate.strip]
-        triangles[conjugate.strip] = np.where(copy[sub] >= 0, copy[sub], sub)
-    return points, triangles, values
+    if not conjugate.cuts:
+        return mesh.points, mesh.triangles, stream_function_vertex_values(conjugate)
+    # the first three local DOFs of every Lagrange element are its vertices, in the
+    # order of the element's own vertex list (the DOF table's, not mesh.triangles')
+    values = conjugate.local_values()[:3].T.ravel()
+    corners = conjugate.element_dofs()[:3].T
+    points = mesh.points[corners].reshape(-1, 2)
+    return points, np.arange(len(points)).reshape(-1, 3), values
 
 
 def draw_stream_lines(ax, conjugate, n_lines=16, color="white", linewidth=0.7, **style):
     """Draw field lines as level lines of the stream function on a matplotlib axis.
 
     Neighbouring lines carry equal flux (1/``n_lines`` of the total each), so
-    their spacing shows the field strength.
+    their spacing shows the field strength. With several electrode loops on one
+    side (a cut whose jump is not the whole flux), lines that cross that cut
+    resume shifted by the jump's remainder modulo the spacing: equal-flux lines
+    cannot close up around a loop whose flux is not a multiple of the spacing.
 
     Parameters
     ----------

@@ -73,6 +73,12 @@ def format_bounds(result):
     last = result.levels[-1]
     lines.append(f"  midpoint    {last.midpoint:.12e} +- {0.5 * last.width:.2e} "
                  f"(hypercircle residual {last.eta:.3e})")
+    if result.resistance_label:
+        r_unit = f" [{result.resistance_unit}]" if result.resistance_unit else ""
+        lines.append(f"  {result.resistance_label}{r_unit}: between {1 / last.upper:.10e} "
+                     f"and {1 / last.lower:.10e}")
+    for note in dict.fromkeys(n for lv in result.levels for n in lv.notes):
+        lines.append(f"  note        {note}")
     if exact:
         lines.append("  effect.     (upper - lower) / (2 |exact - midpoint|), at least 1 "
                      "when the bounds hold")
