@@ -687,3 +687,16 @@ def draw_stream_lines(ax, conjugate, n_lines=16, color="white", linewidth=0.7, *
     levels = levels[(levels > lo) & (levels < hi)]
     return ax.tricontour(tri, values, levels=levels, colors=color, linewidths=linewidth,
                          **style)
+
+
+def conjugate_if_two_terminal(solution):
+    """The stream function of a two-terminal solution, or None where there is none.
+
+    Problems with a source, flux data or more than two potentials have no single
+    stream function; their pictures trace field lines along -grad u instead.
+    """
+    try:
+        classify(solution.problem, two_terminal(solution.problem))
+    except InputError:
+        return None
+    return solve_conjugate(solution)

@@ -21,8 +21,12 @@ def cell_flux(solution):
     return -solution.disc.k_cell[:, None] * g
 
 
-def vtu_mesh(solution):
-    """A meshio mesh with u, region ids, flux and boundary-part tags."""
+def vtu_mesh(solution, conjugate=None):
+    """A meshio mesh with u (and the stream function psi), region ids, flux, part tags.
+
+    P2 is written as 6-node triangles carrying every degree of freedom; P1 and P3
+    as 3-node triangles with vertex values.
+    """
     from .solve import segment_parts
 
     mesh = solution.mesh
@@ -32,11 +36,14 @@ def vtu_mesh(solution):
         u = solution.u
     else:
         points = mesh.points
-        tri = ("triangle", solution.disc.skmesh.t.T[:, :3] if solution.order == 1
-               else mesh.triangles)
+        tri = ("triangle", mesh.triangles)
         u = solution.vertex_values()
-        if solution.order == 1:
-            tri = ("triangle", mesh.triangles)
+    point_data = {"u": np.asarray(u, float)}
+    if conjugate is not None:
+        from .conjugate import stream_function_vertex_values
+
+        point_data["psi"] = stream_function_vertex_values(conjugate,
+                                                          all_dofs=solution.order == 2)
     bnd = mesh.boundary_mask()
     lines = mesh.segments[bnd]
     parts = segment_parts(solution.problem, mesh)[bnd]
@@ -45,7 +52,7 @@ def vtu_mesh(solution):
     n_tri, n_line = len(tri[1]), len(lines)
     return meshio.Mesh(
         pts3, [tri, ("line", lines)],
-        point_data={"u": np.asarray(u, float)},
+        point_data=point_data,
         cell_data={
             "region": [mesh.regions.astype(np.int32), np.full(n_line, -1, np.int32)],
             "flux": [np.column_stack([flux, np.zeros(n_tri)]), np.zeros((n_line, 3))],
@@ -90,8 +97,12 @@ def summary(solution, probes=None):
     return out
 
 
-def write_results(solution, folder, probes=None, picture=True):
+def write_results(solution, folder, probes=None, picture=True, stream_function=True):
     """Write ``solution.vtu``, ``summary.json`` and ``field.png`` into ``folder``.
+
+    For two-terminal problems the stream function (the conjugate harmonic) is
+    solved too: written as ``psi`` beside ``u``, drawn as the field lines, and its
+    energy gives guaranteed capacity bounds in the summary (see docs/bounds.md).
 
     Returns
     -------
@@ -101,14 +112,28 @@ def write_results(solution, folder, probes=None, picture=True):
     import time
 
     data = summary(solution, probes)
+    conj = None
+    if stream_function:
+        from .bounds import level_bounds
+        from .conjugate import conjugate_if_two_terminal
+
+        t0 = time.perf_counter()
+        conj = conjugate_if_two_terminal(solution)
+        if conj is not None:
+            lb = level_bounds(solution, conj)
+            data["capacity_bounds"] = {"lower": lb.lower, "upper": lb.upper,
+                                       "relative_width": lb.relative_width,
+                                       "guaranteed": lb.geometry["guaranteed"],
+                                       "hypercircle_residual": lb.eta}
+        data["seconds"]["stream_function"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     with OutputSet(folder) as out:
-        meshio.write(out.path("solution.vtu"), vtu_mesh(solution), file_format="vtu",
+        meshio.write(out.path("solution.vtu"), vtu_mesh(solution, conj), file_format="vtu",
                      compression=None)
         if picture:
             from .plotting import field_png
 
-            out.bytes("field.png", field_png(solution))
+            out.bytes("field.png", field_png(solution, conj))
         data["seconds"]["write"] = time.perf_counter() - t0
         out.text("summary.json", json.dumps(data, indent=2, default=_jsonable))
         out.commit()

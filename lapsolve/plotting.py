@@ -28,11 +28,12 @@ def plot_triangulation(solution):
 
 
 def draw_field(ax, tri, z, lines_tri=None, lines_z=None, segments=None, points=None,
-               n_levels=14):
+               n_levels=14, field_lines=True):
     """Colour map, equipotentials (solid black) and field lines (white) on ``ax``.
 
     ``lines_tri``/``lines_z`` is a valid (non-overlapping) triangulation used to trace
-    the field lines; it defaults to ``tri``.
+    the field lines along -grad u; it defaults to ``tri``. With ``field_lines=False``
+    the caller draws them (as level lines of the stream function).
     """
     cf = ax.tricontourf(tri, z, levels=48, cmap="viridis")
     ax.tricontour(tri, z, levels=n_levels, colors="k", linewidths=0.8)
@@ -45,7 +46,7 @@ def draw_field(ax, tri, z, lines_tri=None, lines_z=None, segments=None, points=N
     ny = max(20, int(nx * (y1 - y0) / max(x1 - x0, 1e-300)))
     X, Y = np.meshgrid(np.linspace(x0, x1, nx), np.linspace(y0, y1, ny))
     gx, gy = interp.gradient(X, Y)
-    if np.ma.count(gx) > 0:
+    if field_lines and np.ma.count(gx) > 0:
         ax.streamplot(X, Y, -np.ma.filled(gx, np.nan), -np.ma.filled(gy, np.nan),
                       color="white", linewidth=0.7, density=1.1, arrowsize=0.6,
                       broken_streamlines=False)
@@ -59,8 +60,12 @@ def draw_field(ax, tri, z, lines_tri=None, lines_z=None, segments=None, points=N
     return cf
 
 
-def field_png(solution, dpi=130):
-    """PNG bytes of the solution picture."""
+def field_png(solution, conjugate=None, dpi=130):
+    """PNG bytes of the solution picture.
+
+    With a ``conjugate`` (stream function), field lines are its level lines, equal
+    flux between neighbours; otherwise they are traced along -grad u.
+    """
     tri, z = plot_triangulation(solution)
     fig, ax = plt.subplots(figsize=(7.5, 6))
     mesh = solution.mesh
@@ -69,11 +74,19 @@ def field_png(solution, dpi=130):
         ax.plot(mesh.points[[a, b], 0], mesh.points[[a, b], 1], "--", color="0.85", lw=0.9)
     unit = solution.problem.physics.potential_unit
     straight = mtri.Triangulation(mesh.points[:, 0], mesh.points[:, 1], mesh.triangles)
-    cf = draw_field(ax, tri, z, straight, solution.vertex_values(), bnd, mesh.points)
+    cf = draw_field(ax, tri, z, straight, solution.vertex_values(), bnd, mesh.points,
+                    field_lines=conjugate is None)
+    if conjugate is not None:
+        from .conjugate import draw_stream_lines
+
+        draw_stream_lines(ax, conjugate, n_lines=24)
+        lines = "white: field lines (stream-function levels, equal flux between lines)"
+    else:
+        lines = "white: field lines (along -grad u)"
     cb = fig.colorbar(cf, ax=ax, shrink=0.85)
     cb.set_label(f"u [{unit}]" if unit else "u")
     ax.set_title(f"{solution.problem.name}: P{solution.order}, {solution.dofs:,} DOFs\n"
-                 "black: equipotentials   white: field lines (along -grad u)", fontsize=10)
+                 f"black: equipotentials\n{lines}", fontsize=9)
     ax.set_xlabel("x")
     ax.set_ylabel("y")
     buf = io.BytesIO()
