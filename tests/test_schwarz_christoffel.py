@@ -6,7 +6,25 @@ import pytest
 from scipy.special import ellipk, ellipkm1
 
 from lapsolve.errors import GeometryError, InputError
-from verification.modulus import cross_ratios, quadrilateral_modulus, uhp_modulus
+from lapsolve.problem import EPSILON_0, PHYSICS, Problem
+from verification.exact.case import ExactCase
+from verification.exact.quadrilateral import (
+    HIGH,
+    INSULATED_01,
+    INSULATED_23,
+    LOW,
+    case_from_problem,
+    corner_gradings,
+    quadrilateral_case,
+)
+from verification.modulus import (
+    cross_ratios,
+    quadrilateral_modulus,
+    reciprocal_check,
+    uhp_modulus,
+)
+from verification.sc.lines import line_spacing, rectangle_map, trace_lines
+from verification.sc.polygon import doubled_edges, prepare_polygon
 from verification.schwarz_christoffel import SCMap, as_complex, winding_number
 
 L_SHAPE = [(0, 0), (2, 0), (2, 1), (1, 1), (1, 2), (0, 2)]
@@ -14,6 +32,8 @@ L_SHAPE = [(0, 0), (2, 0), (2, 1), (1, 1), (1, 2), (0, 2)]
 DIAGONAL_SLIT = [(0.6, 0.6), (0, 0), (2, 0), (2, 2), (0, 2), (0, 0)]
 # Rectangle [0, 2] x [0, 1.5] with a vertical slit from (1, 0) to (1, 1).
 BOTTOM_SLIT = [(0, 0), (1, 0), (1, 1), (1, 0), (2, 0), (2, 1.5), (0, 1.5)]
+# Square [0, 2]^2 with a slit from the middle of its left side to (0.8, 1).
+LEFT_SLIT = [(0, 0), (2, 0), (2, 2), (0, 2), (0, 1), (0.8, 1), (0, 1)]
 
 
 def rectangle(length, height):
@@ -250,7 +270,7 @@ def test_potential_between_zero_and_one_near_sharp_corners():
 
 
 @pytest.mark.parametrize("vertices, words", [
-    ([(0, 0), (2, 2), (2, 0), (0, 1)], "cross"),  # bow-tie
+    ([(0, 0), (2, 2), (2, 0), (0, 1)], "not simple: edges 0 and 2 cross"),  # bow-tie
     ([(0, 0), (1, 0)], "at least 3"),
     ([(0, 0), (1, 0), (1, 0), (0, 1)], "coincide"),
     ([(0, 0), (1, 0), (2, 0)], "zero area"),
@@ -281,7 +301,176 @@ def test_parameter_problem_failure_reports_residual():
         quadrilateral_modulus(rectangle(300, 1), (0, 1, 2, 3))
 
 
+@pytest.mark.parametrize("vertices, words", [
+    ([(0, 0), (2, 2), (2, 0), (0, 1)], "not simple"),
+    ([(0, 0), (1, 0), (1, 1), (0, 1), (0.5, 1.5)], "not simple"),  # edge 4 crosses edge 2
+])
+def test_non_simple_polygons_are_refused_by_the_modulus(vertices, words):
+    with pytest.raises(GeometryError, match=words):
+        quadrilateral_modulus(vertices, (0, 1, 2, 3))
+
+
 def test_point_outside_is_refused():
     result = quadrilateral_modulus(L_SHAPE, (0, 1, 2, 4))
     with pytest.raises(InputError, match="outside"):
         result.potential(np.array([(1.5, 1.5)]))
+
+
+# --- long strips: boundary and near-boundary points ----------------------------------
+
+
+@pytest.mark.parametrize("length", [20.0, 100.0])
+def test_potential_near_the_sides_of_a_long_strip(length):
+    # u = x / L (Papamichael & Stylianopoulos 2010, as above) at points on and 1e-3
+    # from the insulated sides, where the preimages lie 1e26..1e136 from the others:
+    # a radial path must not start at a prevertex whose distance only ties by rounding.
+    result = quadrilateral_modulus(rectangle(length, 1), (0, 1, 2, 3))
+    x = np.linspace(0.25, length - 0.25, 41)
+    points = np.concatenate([x + 1j * y for y in (0.0, 1e-3, 0.999, 1.0)])
+    assert np.max(np.abs(result.potential(points) - points.real / length)) < 1e-10
+
+
+# --- slits, the conjugate check, traced lines -------------------------------------------
+
+
+def test_doubled_edges_are_the_slit_sides():
+    # A slit is run along twice, once each way (Driscoll & Trefethen 2002, sec. 2.1).
+    assert doubled_edges(prepare_polygon(LEFT_SLIT).vertices) == [(4, 5)]
+    assert doubled_edges(prepare_polygon(BOTTOM_SLIT).vertices) == [(1, 2)]
+    assert doubled_edges(prepare_polygon(L_SHAPE).vertices) == []
+
+
+@pytest.mark.parametrize("vertices, corners", [
+    (L_SHAPE, (0, 1, 2, 4)),
+    (rectangle(20, 1), (0, 1, 2, 3)),
+    (L_SHAPE[::-1], (1, 3, 4, 5)),
+])
+def test_reciprocal_check(vertices, corners):
+    # M(Q) M(conjugate Q) = 1 (Hakula, Rasila & Vuorinen, ETNA 48, 2018); the check maps
+    # the conjugate with the other two corners at infinity and 0.
+    result = quadrilateral_modulus(vertices, corners)
+    check = reciprocal_check(result, vertices)
+    assert check.error < 1e-12
+    assert check.conjugate == pytest.approx(1 / result.modulus, rel=1e-12)
+
+
+@pytest.mark.parametrize("normalisation", [None, (1, 3)])
+def test_traced_lines_of_a_rectangle_are_straight(normalisation):
+    # In a rectangle L x 1 the equipotential u sits at x = L u and the field line s at
+    # y = s (Papamichael & Stylianopoulos 2010: the rectangle is its own canonical
+    # domain). The marked midpoint (1.5, 0) with normalisation (1, 3) puts no corner
+    # at infinity: the rectangle map then has a fifth, straight vertex.
+    vertices = [(0, 0), (1.5, 0), (3, 0), (3, 1), (0, 1)]
+    result = quadrilateral_modulus(vertices, (0, 2, 3, 4), normalisation=normalisation)
+    assert rectangle_map(result).vertices.size == (4 if normalisation is None else 5)
+    lines = trace_lines(result)
+    assert len(lines.equipotentials) == 29 and len(lines.field_lines) == 9
+    for u, curve in lines.equipotentials:
+        assert np.max(np.abs(curve.real - 3 * u)) < 1e-10
+    for s, curve in lines.field_lines:
+        assert np.max(np.abs(curve.imag - s)) < 1e-10
+
+
+def test_traced_lines_are_level_lines_of_the_potential():
+    # Lines come from the inverse rectangle map and the forward polygon map; the
+    # potential from the inverse polygon map and the forward rectangle map: the two
+    # routes must agree (common practice, no source).
+    result = quadrilateral_modulus(LEFT_SLIT, (0, 1, 2, 3))
+    lines = trace_lines(result)
+    for u, curve in lines.equipotentials:
+        assert np.max(np.abs(result.potential(curve) - u)) < 1e-10
+    for s, curve in lines.field_lines:
+        flux = result.complex_potential(curve[1:-1]).imag * result.modulus
+        assert np.max(np.abs(flux - s)) < 1e-10
+
+
+@pytest.mark.parametrize("modulus, steps", [
+    (1.0, (0.1, 0.1)), (2.5, (0.1, 0.1)), (0.05, (0.025, 0.025)), (20.0, (0.5, 0.5)),
+    (100.0, (2.5, 0.5)),
+])
+def test_line_spacing(modulus, steps):
+    # Equal steps give curvilinear squares (Maxwell, A Treatise on Electricity and
+    # Magnetism, 1873, vol. 1, art. 123, from memory); at most 40 lines per family.
+    assert line_spacing(modulus) == pytest.approx(steps)
+
+
+# --- the exact case ---------------------------------------------------------------------
+
+
+def test_case_follows_the_contract():
+    case = quadrilateral_case(L_SHAPE, (0, 1, 2, 4), "quad-l")
+    assert isinstance(case, ExactCase)
+    spec = case.conditions
+    assert (spec[LOW].edges, spec[LOW].kind, spec[LOW].electrode) == ((4, 5), "dirichlet", 0.0)
+    assert (spec[HIGH].edges, spec[HIGH].electrode) == ((1,), 1.0)
+    assert spec[INSULATED_01].edges == (0,) and spec[INSULATED_01].kind == "insulated"
+    assert spec[INSULATED_23].edges == (2, 3) and spec[INSULATED_23].kind == "insulated"
+    problem = case.problem(0.5)
+    assert isinstance(problem, Problem) and problem.outer.n_edges == 6
+    # C' = eps / M and W = C' / 2 at V = 1 (Papamichael & Stylianopoulos 2010).
+    modulus = quadrilateral_modulus(L_SHAPE, (0, 1, 2, 4)).modulus
+    refs = {r.quantity: r for r in case.references}
+    assert refs["capacitance"].value == pytest.approx(1 / modulus, rel=1e-14)
+    assert refs["energy"].value == pytest.approx(0.5 / modulus, rel=1e-14)
+    assert refs["capacitance"].scope == "domain"
+    # u = 0 and 1 on the electrodes, vectorised over any shape.
+    x = np.array([[0.0, 0.0], [2.0, 2.0]])
+    y = np.array([[0.3, 1.7], [0.2, 0.9]])
+    assert np.allclose(case.u(x, y), [[0, 0], [1, 1]], atol=1e-12)
+    gx, gy = case.grad(np.array([0.5, 1.5]), np.array([0.5, 0.5]))
+    assert gx.shape == (2,) and np.all(gx > 0)
+
+
+@pytest.mark.parametrize("vertices, corners, lam, point", [
+    # Dirichlet-Dirichlet or Neumann-Neumann corner of angle alpha: lambda = pi / alpha;
+    # Dirichlet-Neumann: pi / (2 alpha) (Grisvard, Elliptic Problems in Nonsmooth
+    # Domains, 1985, sec. 5.1).
+    (L_SHAPE, (0, 1, 2, 4), 2 / 3, (1.0, 1.0)),      # re-entrant corner in an insulated arc
+    (L_SHAPE, (0, 1, 3, 5), 1 / 3, (1.0, 1.0)),      # re-entrant corner marked
+    (LEFT_SLIT, (0, 1, 2, 3), 1 / 2, (0.8, 1.0)),    # slit tip inside an electrode
+    ([(0, 0), (1, 0), (2, 0), (2, 1), (0, 1)], (0, 1, 3, 4), 1 / 2, (1.0, 0.0)),  # marked point
+])
+def test_case_singular_exponent(vertices, corners, lam, point):
+    case = quadrilateral_case(vertices, corners)
+    assert case.singular_exponent == pytest.approx(lam, rel=1e-12)
+    assert case.singular_point == pytest.approx(point)
+    assert not case.smooth
+    assert all(g.mu <= 1 for g in corner_gradings(case, 3))
+
+
+def test_rectangle_case_is_smooth():
+    # Right angles: lambda = 1 at the marked corners, a polynomial term (Grisvard 1985).
+    case = quadrilateral_case(rectangle(3, 1), (0, 1, 2, 3))
+    assert case.smooth and np.isinf(case.singular_exponent) and case.singular_point is None
+    assert corner_gradings(case, 3) == []
+
+
+def test_case_refuses_a_slit_outside_the_electrodes():
+    with pytest.raises(GeometryError, match="slit"):
+        quadrilateral_case(BOTTOM_SLIT, (0, 4, 5, 6))
+
+
+def test_case_scales_with_physics():
+    # C' = eps0 eps_r / M for electrostatics (Ramo, Whinnery & Van Duzer, Fields and Waves
+    # in Communication Electronics, 3rd ed. 1994: capacitance scales with permittivity).
+    case = quadrilateral_case(rectangle(3, 1), (0, 1, 2, 3), coefficient=2.5,
+                              physics="electrostatic")
+    assert case.references[0].value == pytest.approx(EPSILON_0 * 2.5 / 3, rel=1e-12)
+    assert case.problem().physics is PHYSICS["electrostatic"]
+
+
+def test_case_from_problem_refuses_holes_and_regions():
+    from lapsolve.geometry import make_circle, make_polygon
+    from lapsolve.problem import Region
+
+    outer = make_polygon("outer", rectangle(4, 2))
+    with pytest.raises(GeometryError, match="simply connected"):
+        case_from_problem(Problem("p", outer, holes=(make_circle("h", (2, 1), 0.3),)),
+                          (0, 1, 2, 3))
+    with pytest.raises(InputError, match="material"):
+        case_from_problem(Problem("p", outer, regions=(
+            Region("r", make_circle("r", (2, 1), 0.3), 2.0),)), (0, 1, 2, 3))
+    clockwise = make_polygon("outer", rectangle(4, 2)[::-1])
+    # The file order (0,2), (4,2), (4,0), (0,0): u = 0 on the arc 1 -> 2, x = 4.
+    case = case_from_problem(Problem("p", clockwise), (2, 3, 0, 1))
+    assert case.u(np.array([1.0]), np.array([1.0]))[0] == pytest.approx(0.75, abs=1e-12)

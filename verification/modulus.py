@@ -10,11 +10,12 @@ counter-clockwise has ``M = L / H``.
 The polygon is mapped from the upper half-plane (``SCMap``); the four corner
 prevertices then give ``M`` through the cross-ratio and complete elliptic
 integrals, and the rectangle itself is a second Schwarz-Christoffel integral
-with four right angles at the corner prevertices.
+with four right angles at the corner prevertices. :func:`reciprocal_check`
+maps the conjugate quadrilateral independently as an outside error estimate.
 """
 
 import logging
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.special import ellipk, ellipkm1
@@ -24,6 +25,7 @@ from verification.schwarz_christoffel import (
     RESIDUAL_LIMIT,
     SCIntegral,
     SCMap,
+    as_complex,
     prepare_polygon,
 )
 
@@ -84,6 +86,9 @@ class ModulusResult:
         Schwarz-Christoffel map and the mismatch of the rectangle map's sides.
     corners : tuple of int
         The corner indices as given.
+    ccw_corners : tuple of int
+        The corners as indices into ``map.vertices`` (counter-clockwise), in the
+        order ``(c0, c1, c2, c3)`` of the convention.
     eps, rho_s : float
         Permittivity and sheet resistance used.
     map : SCMap
@@ -97,10 +102,37 @@ class ModulusResult:
     resistance: float
     residual: float
     corners: tuple
+    ccw_corners: tuple
     eps: float
     rho_s: float
     map: SCMap
     rectangle: SCIntegral
+    _located: dict = field(default_factory=dict, repr=False, compare=False)
+
+    def locate(self, points):
+        """Preimages ``anchor + offset`` of points under the polygon map (cached).
+
+        The last two point sets are kept: norms ask for ``u`` and ``grad u`` at
+        the same quadrature points, and the inverse map is the costly part.
+        """
+        z = as_complex(points, "points")
+        key = z.tobytes()
+        found = self._located.get(key)
+        if found is None:
+            found = self.map.locate(z)
+            if len(self._located) >= 2:
+                self._located.pop(next(iter(self._located)))
+            self._located[key] = found
+        return found
+
+    def complex_potential(self, points):
+        """``h = g(w(z)) / M``: real part the potential, imaginary part its conjugate.
+
+        ``Im h`` runs from 0 on the insulated arc ``c0 -> c1`` to ``1 / M`` on
+        the arc ``c2 -> c3``; its level lines are the field lines.
+        """
+        anchor, offset = self.locate(points)
+        return self.rectangle.forward(offset, anchor=anchor) / self.modulus
 
     def potential(self, points):
         """Potential (0 on arc c3->c0, 1 on arc c1->c2) at points of the closed polygon.
@@ -114,8 +146,7 @@ class ModulusResult:
         -------
         ndarray, shape (N,)
         """
-        anchor, offset = self.map.locate(points)
-        return self.rectangle.forward(offset, anchor=anchor).real / self.modulus
+        return self.complex_potential(points).real
 
     def gradient(self, points):
         """Gradient of the potential, shape (N, 2); reliable at interior points.
@@ -123,7 +154,7 @@ class ModulusResult:
         ``u = Re h`` with ``h = R(w(z)) / M``, so ``u_x - i u_y = R'(w) / (M f'(w))``.
         At a vertex the gradient is 0, infinite or undefined.
         """
-        anchor, offset = self.map.locate(points)
+        anchor, offset = self.locate(points)
         with np.errstate(divide="ignore", invalid="ignore"):
             dh = (self.rectangle.derivative(offset, anchor=anchor)
                   / (self.modulus * self.map.derivative(offset, anchor=anchor)))
@@ -202,8 +233,9 @@ def quadrilateral_modulus(vertices, corners, eps=1.0, rho_s=1.0, limit=RESIDUAL_
         raise GeometryError(
             f"modulus not accurate: residual {residual:.1e} exceeds {limit:.0e}")
     return ModulusResult(modulus=modulus, capacitance=eps / modulus, resistance=rho_s * modulus,
-                         residual=residual, corners=tuple(int(c) for c in corners), eps=eps,
-                         rho_s=rho_s, map=sc, rectangle=rectangle)
+                         residual=residual, corners=tuple(int(c) for c in corners),
+                         ccw_corners=tuple(int(c) for c in ccw), eps=eps, rho_s=rho_s, map=sc,
+                         rectangle=rectangle)
 
 
 def _vertex_index(value, n):
@@ -273,3 +305,62 @@ def _rectangle_map(pre, modulus):
         raise GeometryError("rectangle map failed: non-finite side integrals")
     return integ, mismatch
 
+
+
+@dataclass(frozen=True)
+class ReciprocalCheck:
+    """The reciprocal identity ``M(c0, c1, c2, c3) * M(c1, c2, c3, c0) = 1`` as an error estimate.
+
+    Attributes
+    ----------
+    conjugate : float or None
+        Modulus of the conjugate quadrilateral, from a map normalised at other
+        vertices; ``None`` when that map failed.
+    error : float or None
+        ``|M * conjugate - 1|``.
+    note : str
+        Why the check is missing, or empty.
+    """
+
+    conjugate: float = None
+    error: float = None
+    note: str = ""
+
+
+def reciprocal_check(result, vertices, limit=RESIDUAL_LIMIT):
+    """Check ``result`` with an independent map of the conjugate quadrilateral.
+
+    The conjugate ``Q(c1, c2, c3, c0)`` has modulus ``1 / M`` (Hakula, Rasila &
+    Vuorinen, ETNA 48, 2018). Its map sends the two corners opposite to the
+    first map's vertex at infinity to ``inf`` and ``0``, so the two
+    computations share no prevertex placement; their product's distance from 1
+    estimates the error of ``M`` from outside the first map's own residual.
+
+    Parameters
+    ----------
+    result : ModulusResult
+    vertices : array_like
+        The polygon ``result`` was computed for, as given then.
+    limit : float
+        Largest accepted residual of the conjugate map.
+
+    Returns
+    -------
+    ReciprocalCheck
+    """
+    c0, c1, c2, c3 = result.corners
+    ccw = result.ccw_corners
+    n = result.map.vertices.size
+    infinity = result.map.infinity_index
+    pair = None
+    if infinity in ccw:
+        k = ccw.index(infinity)
+        pair = tuple(n - 1 - i if result.map.reversed else i
+                     for i in (ccw[(k + 2) % 4], ccw[(k + 3) % 4]))
+    try:
+        other = quadrilateral_modulus(vertices, (c1, c2, c3, c0), limit=limit,
+                                      normalisation=pair)
+    except GeometryError as exc:
+        return ReciprocalCheck(note=f"conjugate map failed: {exc}")
+    product = result.modulus * other.modulus
+    return ReciprocalCheck(conjugate=other.modulus, error=abs(product - 1.0))
