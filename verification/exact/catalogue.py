@@ -1,6 +1,7 @@
 """The catalogue: one explicit registry of exact cases, filled in this file only."""
 
 import difflib
+from collections.abc import Mapping
 
 import numpy as np
 
@@ -18,7 +19,42 @@ from .cases import (
     wires,
 )
 
-CASES = {case.name: case for case in (
+
+class _Registry(Mapping):
+    """Name -> case. An entry may be a factory (a case that solves a conformal map
+    when built): it is built on first access and kept, so importing the catalogue
+    stays cheap."""
+
+    def __init__(self, cases, factories):
+        self._items = {case.name: case for case in cases}
+        self._items.update(factories)
+
+    def __getitem__(self, name):
+        item = self._items[name]
+        if callable(item) and not hasattr(item, "conditions"):
+            item = self._items[name] = item()
+        return item
+
+    def __iter__(self):
+        return iter(self._items)
+
+    def __len__(self):
+        return len(self._items)
+
+
+def _sc_lhexagon():
+    from ..exact.quadrilateral import quadrilateral_case
+
+    # Electrodes: u = 0 on the left side (vertex 5 -> 0), u = 1 on the right end of the
+    # arm (vertex 1 -> 2); the re-entrant corner (1, 1) lies inside an insulated arc.
+    return quadrilateral_case([(0, 0), (2, 0), (2, 1), (1, 1), (1, 2), (0, 2)], (0, 1, 2, 4),
+                              name="sc-lhexagon",
+                              description="L-shaped hexagon between two electrodes; exact "
+                                          "potential and capacitance from a Schwarz-Christoffel "
+                                          "map")
+
+
+_CASE_LIST = (
     smooth.SMOOTH_SQUARE,
     smooth.SMOOTH_MIXED,
     smooth.SMOOTH_NEUMANN,
@@ -35,7 +71,9 @@ CASES = {case.name: case for case in (
     wires.WIRE_OVER_GROUND,
     cylinder.CASE,
     dielectric.CASE,
-)}
+)
+
+CASES = _Registry(_CASE_LIST, {"sc-lhexagon": _sc_lhexagon})
 
 
 def get_case(name):
