@@ -29,44 +29,51 @@ RTOL = 1e-10
 COARSE = 0.05  # coarse mesh size on the unit square (about 1e3 triangles)
 
 
-def _problem():
+def _problem(size=COARSE):
     from lapsolve.geometry import make_polygon
     from lapsolve.problem import BoundaryPart, Condition, MeshControls, Problem, constant
 
     square = make_polygon("outer", [[0, 0], [1, 0], [1, 1], [0, 1]])
     parts = (BoundaryPart("low", "outer", (3,), Condition("dirichlet", constant(0.0))),
              BoundaryPart("high", "outer", (1,), Condition("dirichlet", constant(1.0))))
-    return Problem("plate", square, parts=parts, mesh=MeshControls(COARSE))
+    return Problem("plate", square, parts=parts, mesh=MeshControls(size))
 
 
-def _levels_for(target, order):
+def _dofs_after(mesh, levels, order):
+    # vertices and edges after uniform refinement: V' = V + E, E' = 2E + 3T, T' = 4T
+    v, t = len(mesh.points), mesh.n_triangles
+    e = v + t - 1
+    for _ in range(levels):
+        v, e, t = v + e, 2 * e + 3 * t, 4 * t
+    return v if order == 1 else v + e
+
+
+def plan(target, order):
+    """Coarse mesh size and refinement levels whose DOF count is closest to ``target``."""
     from lapsolve.meshing import triangulate
 
-    coarse = triangulate(_problem())
-    n_v, n_t = len(coarse.points), coarse.n_triangles
-    n_e = n_v + n_t - 1
-    best, best_gap = 0, np.inf
-    for lev in range(9):
-        # vertices after refinement: V' = V + E, E' = 2E + 3T, T' = 4T
-        v, e, t = n_v, n_e, n_t
-        for _ in range(lev):
-            v, e, t = v + e, 2 * e + 3 * t, 4 * t
-        dofs = v if order == 1 else v + e
-        gap = abs(np.log(dofs / target))
-        if gap < best_gap:
-            best, best_gap = lev, gap
-    return best
+    levels = max(0, int(np.floor(np.log(target / 3000.0) / np.log(4.0))))
+    lo, hi = 0.005, 0.5
+    for _ in range(30):  # bisection on the coarse size (DOFs fall as the size grows)
+        mid = np.sqrt(lo * hi)
+        if _dofs_after(triangulate(_problem(mid)), levels, order) > target:
+            lo = mid
+        else:
+            hi = mid
+        if hi / lo < 1.02:
+            break
+    return float(np.sqrt(lo * hi)), levels
 
 
 def _peak_mb():
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
-def run_ours(order, levels):
+def run_ours(order, levels, size):
     from lapsolve.meshing import triangulate
     from lapsolve.solve import solve
 
-    problem = _problem()
+    problem = _problem(size)
     t0 = time.perf_counter()
     mesh = triangulate(problem)
     sol = solve(problem, order=order, mesh=mesh, refine=levels, solver="auto", rtol=RTOL)
@@ -77,7 +84,7 @@ def run_ours(order, levels):
             "capacity": sol.capacity["from_energy"]}
 
 
-def run_plain(order, levels):
+def run_plain(order, levels, size):
     import pyamg
     import scipy.sparse.linalg as spla
     from skfem import Basis, ElementTriP1, ElementTriP2, MeshTri, asm, condense
@@ -85,7 +92,7 @@ def run_plain(order, levels):
 
     from lapsolve.meshing import triangulate
 
-    coarse = triangulate(_problem())
+    coarse = triangulate(_problem(size))
     st = {}
     t0 = time.perf_counter()
     m = MeshTri(coarse.points.T.copy(), coarse.triangles.T.copy()).refined(levels)
@@ -123,13 +130,13 @@ def run_plain(order, levels):
             "bare_seconds": st["amg_setup"] + st["amg_solve"], "peak_mb": _peak_mb()}
 
 
-def _child(kind, order, levels):
-    out = (run_ours if kind == "ours" else run_plain)(order, levels)
+def _child(kind, order, levels, size):
+    out = (run_ours if kind == "ours" else run_plain)(order, levels, size)
     print(json.dumps(out))
 
 
-def _spawn(kind, order, levels):
-    cmd = [sys.executable, __file__, "--child", kind, str(order), str(levels)]
+def _spawn(kind, order, levels, size):
+    cmd = [sys.executable, __file__, "--child", kind, str(order), str(levels), repr(size)]
     # one BLAS thread for both sides: on a loaded 2-core machine a second one only spins
     env = {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}
     res = subprocess.run(cmd, capture_output=True, text=True, check=False, env=env)
@@ -143,10 +150,10 @@ def main(argv=None):
     ap.add_argument("--sizes", type=float, nargs="+", default=[1e4, 1e5, 1e6, 4e6])
     ap.add_argument("--orders", type=int, nargs="+", default=[1, 2])
     ap.add_argument("--json", metavar="FILE")
-    ap.add_argument("--child", nargs=3, help=argparse.SUPPRESS)
+    ap.add_argument("--child", nargs=4, help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
     if args.child:
-        _child(args.child[0], int(args.child[1]), int(args.child[2]))
+        _child(args.child[0], int(args.child[1]), int(args.child[2]), float(args.child[3]))
         return 0
     rows = []
     head = (f"{'P':>2} {'DOFs':>10} {'ours s':>8} {'plain s':>8} {'bare s':>7} "
@@ -154,11 +161,12 @@ def main(argv=None):
     print(head)
     for order in args.orders:
         for size in args.sizes:
-            levels = _levels_for(size, order)
+            coarse, levels = plan(size, order)
             load0 = os.getloadavg()[0]
-            ours = _spawn("ours", order, levels)
-            plain = _spawn("plain", order, levels)
-            row = {"order": order, "levels": levels, "dofs": ours["dofs"], "ours": ours,
+            ours = _spawn("ours", order, levels, coarse)
+            plain = _spawn("plain", order, levels, coarse)
+            row = {"order": order, "levels": levels, "coarse_size": coarse,
+                   "dofs": ours["dofs"], "ours": ours,
                    "plain": plain, "ratio_plain": ours["seconds"] / plain["seconds"],
                    "ratio_bare": ours["seconds"] / plain["bare_seconds"],
                    "kb_per_dof": ours["peak_mb"] * 1024 / ours["dofs"],
