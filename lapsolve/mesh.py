@@ -52,7 +52,19 @@ class Mesh:
         return is_bnd[self.segment_tags]
 
     def refined(self, times=1):
-        """Split every triangle into four; midpoints of curved edges go onto the curve."""
+        """Split every triangle into four; midpoints of curved edges go onto the curve.
+
+        The size of the final mesh is checked against :data:`MAX_TRIANGLES` and the
+        available memory before the first split.
+        """
+        times = int(times)
+        if times > 0:
+            from .resources import REFINE_BYTES_PER_TRIANGLE, check_memory
+
+            what = f"{times} uniform refinement(s) of {self.n_triangles:,} triangles"
+            final = check_size(self.n_triangles * 4.0**times, what)
+            check_memory(final * REFINE_BYTES_PER_TRIANGLE, f"{what} ({final:,} triangles)",
+                         "use fewer refinements")
         mesh = self
         for _ in range(times):
             mesh = _refine_once(mesh)
@@ -62,11 +74,27 @@ class Mesh:
         return replace(self, points=points)
 
 
-def check_size(n_triangles, what="mesh"):
-    if n_triangles > MAX_TRIANGLES:
+def check_size(n_triangles, what="mesh", at_least=False):
+    """Refuse a mesh of more than :data:`MAX_TRIANGLES` triangles.
+
+    ``n_triangles`` may be a float estimate (also inf or NaN, from a zero size),
+    or a lower bound (``at_least``); returns it as an int when it is within the limit.
+
+    Raises
+    ------
+    ResourceLimitError
+    """
+    count = float(n_triangles)
+    if not count <= MAX_TRIANGLES:  # also NaN and inf
+        shown = f"{count:,.0f}" if count < 1e18 else ("more than 10^18" if count == count
+                                                        else "an unbounded number of")
         raise ResourceLimitError(
-            f"{what} would have {n_triangles:,} triangles; the limit is {MAX_TRIANGLES:,} "
-            "(about 24 GiB of memory at P2); use fewer levels or a larger element size")
+            f"{what} would have {'at least ' if at_least and count < 1e18 else ''}{shown} "
+            f"triangles; the limit is "
+            f"{MAX_TRIANGLES:,} "
+            "(a P2 solve on that many needs 60 GiB of memory or more); use fewer levels or "
+            "a larger element size")
+    return int(count)
 
 
 def _edge_keys(a, b, n):

@@ -5,13 +5,20 @@ The format is documented in ``docs/problem-format.md``. Every refusal is an
 """
 
 import math
+import re
 import tomllib
 from pathlib import Path
 
 import numpy as np
 
-from .errors import GeometryError, InputError
-from .geometry import loop_inside, loops_overlap, make_circle, make_polygon
+from .errors import FormulaError, GeometryError, InputError, ResourceLimitError
+from .geometry import (
+    check_feature_size,
+    loop_inside,
+    loops_overlap,
+    make_circle,
+    make_polygon,
+)
 from .problem import (
     CONDITION_KINDS,
     PHYSICS,
@@ -28,6 +35,9 @@ TOP_KEYS = {"title", "description", "physics", "coefficient", "source", "outer",
             "regions", "boundary", "mesh", "exact"}
 PART_KEYS = {"loop", "edges", "type", "value", "h", "u_ref"}
 MESH_KEYS = {"max_size", "max_area", "min_angle", "grading"}
+#: Largest accepted problem file (documented resource limit): a 5000-vertex
+#: polygon takes about 0.2 MB.
+MAX_FILE_BYTES = 16 * 2**20
 
 
 def load_problem(path):
@@ -43,16 +53,69 @@ def load_problem(path):
     """
     path = Path(path)
     try:
-        text = path.read_bytes().decode("utf-8")
+        with open(path, "rb") as fh:
+            raw = fh.read(MAX_FILE_BYTES + 1)
+        if len(raw) > MAX_FILE_BYTES:
+            raise ResourceLimitError(f"file is larger than {MAX_FILE_BYTES // 2**20} MiB, the "
+                                     "limit for a problem file", source=str(path))
+        text = raw.decode("utf-8")
     except FileNotFoundError:
         raise InputError("file not found", source=str(path)) from None
     except (OSError, UnicodeDecodeError) as exc:
         raise InputError(f"cannot read file ({exc.__class__.__name__})", source=str(path)) from None
+    _refuse_overlong_strings(text, str(path))
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise InputError(f"not valid TOML: {exc}", source=str(path)) from None
+    except RecursionError:
+        raise InputError("not valid TOML here: arrays or tables nested too deeply",
+                         source=str(path)) from None
     return problem_from_dict(data, origin=str(path))
+
+
+_SENTINEL = "\ue000"  # a private-use character: never part of a real problem file
+
+
+def _refuse_overlong_strings(text, source):
+    """Refuse a string longer than a formula may be, before the TOML reader sees it.
+
+    Reading a megabyte-long string costs the TOML reader tens of milliseconds; the
+    formula limit is known in advance, so the refusal comes first (a hostile input
+    gets its answer within 100 ms). To name the field, the string is replaced by a
+    one-character stand-in and the now small file is parsed.
+    """
+    from .formula import MAX_LENGTH
+
+    match = re.search(r'"[^"\n]{%d,}' % (MAX_LENGTH + 1), text)
+    if match is None:
+        return
+    end = text.find('"', match.end())
+    stop = end if end >= 0 else len(text)
+    length = stop - match.start() - 1
+    field = None
+    try:
+        field = _find_value(tomllib.loads(text[:match.start()] + f'"{_SENTINEL}"'
+                                          + text[stop + 1:]), _SENTINEL)
+    except tomllib.TOMLDecodeError:
+        pass
+    raise FormulaError(f"a string of {length:,} characters; formulas are limited to "
+                       f"{MAX_LENGTH:,} characters", source=source, field=field)
+
+
+def _find_value(data, target, prefix=""):
+    """Dotted path of the first occurrence of ``target`` in parsed TOML data."""
+    items = data.items() if isinstance(data, dict) else enumerate(data)
+    for key, value in items:
+        path = f"{prefix}[{key}]" if isinstance(data, list) else \
+            (f"{prefix}.{key}" if prefix else str(key))
+        if value == target:
+            return path
+        if isinstance(value, (dict, list)):
+            found = _find_value(value, target, path)
+            if found:
+                return found
+    return None
 
 
 class _Reader:
@@ -68,7 +131,7 @@ class _Reader:
         if not isinstance(data, dict):
             self.fail(field, f"must be a table, got {type(data).__name__}")
         if keys is not None:
-            unknown = sorted(set(data) - keys)
+            unknown = sorted((str(k) for k in set(data) - keys))
             if unknown:
                 self.fail(f"{field}.{unknown[0]}" if field else unknown[0],
                           f"unknown key (allowed: {', '.join(sorted(keys))})")
@@ -77,7 +140,10 @@ class _Reader:
     def number(self, value, field, positive=False, lo=None, hi=None):
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             self.fail(field, f"must be a number, got {type(value).__name__}")
-        value = float(value)
+        try:
+            value = float(value)
+        except OverflowError:
+            self.fail(field, "must be finite, got an integer too large for a float")
         if not math.isfinite(value):
             self.fail(field, f"must be finite, got {value}")
         if positive and value <= 0:
@@ -193,6 +259,7 @@ def _holes(rd, items, outer):
     for i, name, item in _named_list(rd, items, "holes"):
         rd.table(item, f"holes[{i}]", {"name", "polygon", "circle"})
         hole = rd.loop(name, item, f"holes[{i}]")
+        check_feature_size(hole, outer, rd.origin, f"holes[{i}]")
         if not loop_inside(hole, outer):
             rd.fail(f"holes[{i}]", f"hole '{name}' is not strictly inside the outer boundary",
                     GeometryError)
@@ -209,6 +276,7 @@ def _regions(rd, items, outer, holes):
     for i, name, item in _named_list(rd, items, "regions"):
         rd.table(item, f"regions[{i}]", {"name", "polygon", "circle", "coefficient"})
         loop = rd.loop(name, item, f"regions[{i}]")
+        check_feature_size(loop, outer, rd.origin, f"regions[{i}]")
         if "coefficient" not in item:
             rd.fail(f"regions[{i}].coefficient", "missing")
         k = rd.number(item["coefficient"], f"regions[{i}].coefficient", positive=True)

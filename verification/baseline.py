@@ -140,6 +140,8 @@ def read_run(path):
         raise InputError("file not found", source=str(path)) from None
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise InputError(f"unreadable JSON ({exc})", source=str(path)) from None
+    except RecursionError:
+        raise InputError("unreadable JSON (nested too deeply)", source=str(path)) from None
     if not isinstance(data, dict):
         raise InputError("a run report is a JSON object", source=str(path))
     if data.get("schema") == BASELINE_SCHEMA:
@@ -200,11 +202,28 @@ def load_baseline(against, folder="baselines"):
         raise InputError(f"no baseline '{against}'", source=str(path)) from None
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise InputError(f"unreadable baseline ({exc})", source=str(path)) from None
+    except RecursionError:
+        raise InputError("unreadable baseline (nested too deeply)", source=str(path)) from None
     schema = data.get("schema") if isinstance(data, dict) else None
     if schema != BASELINE_SCHEMA:
         raise InputError(f"not a baseline: schema {schema!r}, expected '{BASELINE_SCHEMA}'",
                          source=str(path), field="schema")
+    _check_entries(data.get("entries"), path)
+    if not isinstance(data.get("name", ""), str):
+        raise InputError("must be a string", source=str(path), field="name")
+    data.setdefault("name", path.stem)
     return data
+
+
+def _check_entries(entries, path):
+    if not isinstance(entries, dict):
+        raise InputError("must map entry paths to {kind, value}", source=str(path),
+                         field="entries")
+    for key, entry in entries.items():
+        if not (isinstance(entry, dict) and entry.get("kind") in ("norm", "order", "quantity")
+                and _is_number(entry.get("value"))):
+            raise InputError("each entry needs a kind (norm, order or quantity) and a finite "
+                             "value", source=str(path), field=f"entries.{key}")
 
 
 @dataclass(frozen=True)

@@ -76,6 +76,8 @@ def load_manifest(path):
         raise InputError("manifest not found", source=str(path)) from None
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise InputError(f"unreadable manifest ({exc})", source=str(path)) from None
+    except RecursionError:
+        raise InputError("unreadable manifest (nested too deeply)", source=str(path)) from None
     if not isinstance(data, dict):
         raise InputError("a manifest is a JSON object", source=str(path))
     schema = data.get("schema")
@@ -83,18 +85,55 @@ def load_manifest(path):
         raise InputError(f"manifest schema is {schema!r}; this version reads "
                          f"'{MANIFEST_SCHEMA}' (re-export the benchmark)",
                          source=str(path), field="schema")
-    try:
-        cases = tuple(data["cases"])
-        for entry in cases:
-            entry["name"], entry["orders"], entry["levels"]
-            for spec in entry["orders"].values():
-                spec["expected_orders"]["L2"], spec["expected_orders"]["H1"]
-        levels = tuple(int(v) for v in data["levels"])
-        orders = tuple(int(v) for v in data["orders"])
-        fld = str(data.get("field", "u"))
-    except (KeyError, TypeError, ValueError, AttributeError) as exc:
-        raise InputError(f"manifest is missing an entry ({exc})", source=str(path)) from None
+    cases = _checked_cases(data.get("cases"), path)
+    levels = _int_list(data.get("levels"), "levels", path, lo=0)
+    orders = _int_list(data.get("orders"), "orders", path, lo=1)
+    fld = data.get("field", "u")
+    if not isinstance(fld, str) or not fld:
+        raise InputError("must be the name of a point field", source=str(path), field="field")
     return Manifest(str(path), fld, levels, orders, cases)
+
+
+def _int_list(values, name, path, lo):
+    if not isinstance(values, list) or not values or not all(
+            isinstance(v, int) and not isinstance(v, bool) and v >= lo for v in values):
+        raise InputError(f"manifest entry must be a non-empty list of integers >= {lo}",
+                         source=str(path), field=name)
+    return tuple(values)
+
+
+def _checked_cases(cases, path):
+    """The case entries, each with a name and expected orders per element order."""
+    def fail(field, message):
+        raise InputError(message, source=str(path), field=field)
+
+    if not isinstance(cases, list) or not cases:
+        fail("cases", "manifest entry must be a non-empty list of cases")
+    for i, entry in enumerate(cases):
+        where = f"cases[{i}]"
+        if not isinstance(entry, dict):
+            fail(where, "a case entry is a JSON object")
+        if not isinstance(entry.get("name"), str) or not entry["name"]:
+            fail(f"{where}.name", "missing: every case entry needs a name")
+        orders = entry.get("orders")
+        if not isinstance(orders, dict) or not orders:
+            fail(f"{where}.orders", "must map element orders to expected orders")
+        for key, spec in orders.items():
+            if not (isinstance(key, str) and key.isdigit() and int(key) >= 1):
+                fail(f"{where}.orders", f"order {key!r} is not a positive integer")
+            expected = spec.get("expected_orders") if isinstance(spec, dict) else None
+            if not isinstance(expected, dict):
+                fail(f"{where}.orders.{key}.expected_orders", "missing")
+            for norm, value in expected.items():
+                if value is not None and not (isinstance(value, (int, float))
+                                              and not isinstance(value, bool)
+                                              and math.isfinite(value)):
+                    fail(f"{where}.orders.{key}.expected_orders.{norm}",
+                         f"must be a finite number, got {value!r}")
+            for norm in ("L2", "H1"):
+                if expected.get(norm) is None:
+                    fail(f"{where}.orders.{key}.expected_orders.{norm}", "missing")
+    return tuple(cases)
 
 
 @dataclass
@@ -331,6 +370,9 @@ def read_quantities(path, n_levels):
         data = json.loads(Path(path).read_text(encoding="utf-8"))
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise InputError(f"unreadable quantities file ({exc})", source=str(path)) from None
+    except RecursionError:
+        raise InputError("unreadable quantities file (nested too deeply)",
+                         source=str(path)) from None
     if not isinstance(data, dict):
         raise InputError("quantities.json must map a quantity name to a list of values, "
                          "one per level", source=str(path))
@@ -365,7 +407,7 @@ def _quantities(case, slot, folder, expected, tol, n_levels):
         ref = refs.get(name)
         rows = [{"level": k, "value": values[k], "rel_error": None} for k in levels]
         record = QuantityRecord(name, rows)
-        if ref is not None and levels:
+        if ref is not None and levels and expected.get("qoi") is not None:
             record.reference, record.source, record.scope = ref.value, ref.source, ref.scope
             errs = [abs(values[k] - ref.value) for k in levels]
             for row, err in zip(rows, errs):

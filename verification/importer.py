@@ -45,6 +45,7 @@ from skfem import (
 )
 
 from lapsolve.errors import InputError
+from lapsolve.geometry import MAX_COORDINATE
 
 log = logging.getLogger(__name__)
 
@@ -148,7 +149,10 @@ class ImportedMesh:
             parts.append(f"{len(self.inverted)} inverted cell(s) (orientation opposite to the "
                          f"others, or a non-convex quad): {_listed(self.inverted)}")
         if len(self.degenerate):
-            parts.append(f"{len(self.degenerate)} zero-area cell(s): "
+            corners = np.sort(self.corners[self.degenerate], axis=1)
+            collapsed = corners.shape[1] == 4 and np.any(corners[:, 1:] == corners[:, :-1])
+            kind = "zero-area or collapsed (repeated corner)" if collapsed else "zero-area"
+            parts.append(f"{len(self.degenerate)} {kind} cell(s): "
                          f"{_listed(self.degenerate)}")
         return "; ".join(parts)
 
@@ -216,8 +220,15 @@ def mesh_from_meshio(raw, source):
     points = points[:, :2].copy()
     if np.any(cells < 0) or np.any(cells >= len(points)):
         raise InputError("a cell refers to a node that does not exist", source=source)
-    if not np.all(np.isfinite(points[np.unique(cells)])):
-        raise InputError("node coordinates contain NaN or infinite values", source=source)
+    used = points[np.unique(cells)]
+    if not np.all(np.isfinite(used)):
+        bad = np.unique(cells)[np.flatnonzero(~np.all(np.isfinite(used), axis=1))[0]]
+        raise InputError(f"node coordinates contain NaN or infinite values (first at node "
+                         f"{int(bad)})", source=source)
+    largest = float(np.max(np.abs(used))) if used.size else 0.0
+    if largest > MAX_COORDINATE:
+        raise InputError(f"node coordinates reach {largest:.3g}; they are limited to "
+                         f"{MAX_COORDINATE:.0e} in absolute value", source=source)
     return ImportedMesh(str(source), cell_type, points, cells)
 
 
@@ -234,7 +245,9 @@ def find_defects(mesh):
     scale = _diag(mesh.points[mesh.used])
     mesh.flipped = False
     area = mesh.cell_areas()
-    degenerate = np.abs(area) <= DEGENERATE_REL * scale**2
+    corners = np.sort(mesh.corners, axis=1)
+    collapsed = np.any(corners[:, 1:] == corners[:, :-1], axis=1)  # a corner repeated
+    degenerate = (np.abs(area) <= DEGENERATE_REL * scale**2) | collapsed
     nondegenerate = ~degenerate
     positive = np.count_nonzero(area[nondegenerate] > 0)
     if positive < np.count_nonzero(nondegenerate) - positive:

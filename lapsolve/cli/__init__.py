@@ -40,6 +40,19 @@ def _command_modules():
                 yield ep.name, _Unavailable(ep.name, exc)
 
 
+class _UsageError(Exception):
+    """A command line that argparse refuses; shown as one line like every error."""
+
+    def __init__(self, prog, message):
+        super().__init__(message)
+        self.prog = prog
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):
+        raise _UsageError(self.prog, message)
+
+
 class _Unavailable:
     """Stands in for a registered command whose module cannot be imported."""
 
@@ -56,7 +69,7 @@ class _Unavailable:
 
 
 def build_parser():
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="lapsolve",
         description="Solve the 2D Laplace equation with finite elements and certify "
                     "solvers and meshes against exact solutions.")
@@ -75,15 +88,35 @@ def main(argv=None):
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
-    except SystemExit as exc:  # argparse already printed a usage line
+    except _UsageError as exc:
+        text = " ".join(str(exc).split())
+        print(f"lapsolve: error: {exc.prog}: {text} (see '{exc.prog} --help')", file=sys.stderr)
+        return 2
+    except SystemExit as exc:  # --help and --version exit through argparse
         return 2 if exc.code not in (0, None) else 0
     logging.basicConfig(level=logging.DEBUG if args.debug else logging.WARNING,
                         format="lapsolve: %(levelname)s: %(message)s")
+    # Library warnings (numpy's RuntimeWarning, ...) go to the log, not as extra
+    # lines on stderr: an error stays one line unless --debug asks for more.
+    logging.captureWarnings(True)
+    logging.getLogger("py.warnings").setLevel(logging.DEBUG if args.debug else logging.ERROR)
+    try:
+        return _run(args)
+    finally:
+        logging.captureWarnings(False)
+
+
+def _run(args):
+    """Run the chosen subcommand and map its outcome to an exit code."""
     try:
         return int(args._run(args) or 0)
     except LapsolveError as exc:
-        print(f"lapsolve: error: {exc}", file=sys.stderr)
+        print(f"lapsolve: error: {' '.join(str(exc).split())}", file=sys.stderr)
         return exc.exit_code
+    except MemoryError:  # the estimates before allocating were not enough
+        print("lapsolve: error: ran out of memory; use a larger element size, a lower order "
+              "or fewer refinements", file=sys.stderr)
+        return 2
     except KeyboardInterrupt:
         print("lapsolve: interrupted", file=sys.stderr)
         return 130

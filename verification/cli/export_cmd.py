@@ -1,5 +1,6 @@
 """``lapsolve export CASE... --levels N --order 1 2 --out DIR``: a benchmark for another solver."""
 
+import math
 from pathlib import Path
 
 from lapsolve.errors import InputError
@@ -25,8 +26,10 @@ def run(args):
     from verification.exact.catalogue import get_case
     from verification.export import export_benchmark
 
-    if args.size is not None and not args.size > 0:
+    if args.size is not None and not (args.size > 0 and math.isfinite(args.size)):
         raise InputError("must be a positive number", field="--size")
+    if not args.field.strip() or any(c in args.field for c in "\n\r\t"):
+        raise InputError("must name a point field", field="--field")
     cases = [get_case(name) for name in args.cases]
     manifest = export_benchmark(cases, args.out, levels=args.levels, orders=args.order,
                                 field=args.field, size=args.size)
