@@ -45,6 +45,7 @@ from pathlib import Path
 
 from lapsolve.atomic import write_text
 from lapsolve.errors import InputError
+from verification.json_file import read_json_object
 
 BASELINE_SCHEMA = "lapsolve.baseline/1"
 FLATTEN_RULE = "lapsolve.flatten/1"
@@ -134,16 +135,7 @@ def _visit(value, path, key, context, out):
 def read_run(path):
     """A run report as JSON data, with a clear error for anything else."""
     path = Path(path)
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError("file not found", source=str(path)) from None
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
-        raise InputError(f"unreadable JSON ({exc})", source=str(path)) from None
-    except RecursionError:
-        raise InputError("unreadable JSON (nested too deeply)", source=str(path)) from None
-    if not isinstance(data, dict):
-        raise InputError("a run report is a JSON object", source=str(path))
+    data = read_json_object(path, "run report")
     if data.get("schema") == BASELINE_SCHEMA:
         raise InputError("this is a baseline, not a run report", source=str(path))
     return data

@@ -27,6 +27,7 @@ from pathlib import Path
 import numpy as np
 
 from lapsolve.errors import InputError
+from verification.json_file import read_json_object
 
 from .export import MANIFEST_SCHEMA
 from .importer import ELEMENTS, build_basis, check_domain, read_result
@@ -70,16 +71,7 @@ def load_manifest(path):
         Unreadable file, not JSON, wrong schema or missing entries.
     """
     path = Path(path)
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError("manifest not found", source=str(path)) from None
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
-        raise InputError(f"unreadable manifest ({exc})", source=str(path)) from None
-    except RecursionError:
-        raise InputError("unreadable manifest (nested too deeply)", source=str(path)) from None
-    if not isinstance(data, dict):
-        raise InputError("a manifest is a JSON object", source=str(path))
+    data = read_json_object(path, "manifest")
     schema = data.get("schema")
     if schema != MANIFEST_SCHEMA:
         raise InputError(f"manifest schema is {schema!r}; this version reads "
