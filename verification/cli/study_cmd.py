@@ -35,6 +35,10 @@ def add_args(p):
                    help="allowed shortfall of a quantity's order (default 0.25)")
     p.add_argument("--quantity", metavar="Q",
                    help="for a problem file: capacitance, energy or flux:<part>")
+    p.add_argument("--corners", type=int, nargs=4, metavar="C",
+                   help="with a problem file: four marked vertices of its outer polygon; the "
+                        "polygon becomes an exact case (Schwarz-Christoffel; arc C3->C0 at 0, "
+                        "arc C1->C2 at 1, the rest insulated)")
     p.add_argument("--out", metavar="DIR", help="write report.html, report.md, study.json, plots")
     p.add_argument("--no-pictures", action="store_true",
                    help="leave the field and error maps out of the report")
@@ -59,13 +63,38 @@ def _check(args):
 
 def run(args):
     _check(args)
-    if _is_file(args.target):
+    if _is_file(args.target) and args.corners is None and not _has_exact(args.target):
         return _run_quantity(args)
     return _run_case(args)
 
 
-def _run_case(args):
+def _has_exact(path):
+    from lapsolve import load_problem
+
+    return "exact" in load_problem(path).extras
+
+
+def _case_for(args):
+    """The exact case a study runs: a catalogue name, a polygon with marked corners,
+    or a problem file with ``exact = "f(z)"``."""
     from verification.exact.catalogue import get_case
+
+    if not _is_file(args.target):
+        if args.corners is not None:
+            raise InputError("--corners needs a problem file with an outer polygon",
+                             field="--corners")
+        return get_case(args.target)
+    if args.corners is not None:
+        from verification.exact.quadrilateral import case_from_problem_file
+
+        return case_from_problem_file(args.target, args.corners)
+    from lapsolve import load_problem
+    from verification.exact.user import case_from_problem
+
+    return case_from_problem(load_problem(args.target))
+
+
+def _run_case(args):
     from verification.report import ProgressBar, write_study_report
     from verification.report.write import study_document
     from verification.study import DEFAULT_QOI_TOL, DEFAULT_TOL, StudyInterrupted, run_studies
@@ -73,7 +102,7 @@ def _run_case(args):
     if args.quantity:
         raise InputError("--quantity applies to a problem file; a case is judged against its "
                          "exact solution and references", field="--quantity")
-    case = get_case(args.target)
+    case = _case_for(args)
     orders = args.order or [1, 2]
     bar = ProgressBar(quiet=args.quiet)
     offset = [0]
