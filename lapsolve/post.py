@@ -65,6 +65,9 @@ def two_level_capacity(problem, fluxes, energy):
         return None
     low, high = sorted(levels)
     dv = high - low
+    # electrodes a denormal apart: dv**2 and the energy underflow, so no ratio means anything
+    if not (dv * dv > 0 and energy > 0 and np.isfinite(1.0 / (dv * dv))):
+        return None
     charge = -sum(fluxes[name] for name in levels[high])
     from_flux = charge / dv
     from_energy = 2 * energy / dv**2

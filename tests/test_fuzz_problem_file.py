@@ -394,3 +394,17 @@ def test_exit_codes_follow_the_readme(tmp_path, capsys, monkeypatch):
                    "--debug for details)\n")
     with pytest.raises(RuntimeError):
         main(["--debug", "solve", str(path)])
+
+
+def test_electrodes_a_denormal_apart_solve():
+    # found by benchmarks/fuzz_long.py: two_level_capacity divided by dv**2, which
+    # underflows to 0 when the electrodes are less than about 1e-154 apart (exit 3)
+    data = {"outer": {"polygon": [[0, 0], [1, 0], [1, 1], [0, 1]]},
+            "boundary": {"low": {"edges": [0], "type": "dirichlet", "value": 0.0},
+                         "high": {"edges": [2], "type": "dirichlet", "value": 1e-200}},
+            "mesh": {"max_size": 0.5}}
+    solution = lapsolve.solve(lapsolve.problem_from_dict(data), order=1)
+    # the field is 1e-200 * y (a linear function is exact for P1); either no capacity
+    # is reported or a finite one (the conductance of the unit square is 1)
+    cap = solution.capacity
+    assert cap is None or cap["from_flux"] == pytest.approx(1.0, rel=1e-9)
