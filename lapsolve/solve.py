@@ -105,6 +105,9 @@ def solve(problem, order=1, mesh=None, refine=0, solver="auto", rtol=None):
         mesh = triangulate(problem)
     if refine:
         mesh = mesh.refined(refine)
+    from .resources import check_solve
+
+    check_solve(mesh.n_triangles, order)  # memory estimate before assembling
     timings["mesh"] = time.perf_counter() - t0
 
     t0 = time.perf_counter()

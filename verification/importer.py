@@ -235,7 +235,8 @@ def mesh_from_meshio(raw, source):
 def _diag(points):
     if len(points) == 0:
         return 1.0
-    return float(np.linalg.norm(points.max(axis=0) - points.min(axis=0))) or 1.0
+    with np.errstate(over="ignore", invalid="ignore"):  # huge coordinates: refused later
+        return float(np.linalg.norm(points.max(axis=0) - points.min(axis=0))) or 1.0
 
 
 def find_defects(mesh):
