@@ -23,6 +23,7 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 
 from .conjugate import classify, solve_conjugate, two_terminal
+from .errors import InputError
 from .geometry import CircleLoop
 
 EPS = float(np.finfo(float).eps)
@@ -300,6 +301,10 @@ def level_bounds(solution, conjugate=None, solver="auto", rtol=None, exact=None,
     e_u, du = weighted_energy(grad_u, disc.k_cell)
     e_psi, dpsi = weighted_energy(grad_psi, 1.0 / disc.k_cell)
     dv2 = terminals.delta_v**2
+    if not (dv2 > 0 and e_u > 0 and e_psi > 0):
+        raise InputError("the electrode potentials differ by so little that the energy "
+                         f"underflows (difference {terminals.delta_v:.3g}); no bounds can be "
+                         "computed", source=solution.problem.origin, field="boundary")
     upper_raw, lower_raw = e_u / dv2, conjugate.flux**2 / e_psi
     rel_u, rel_psi = du / e_u + 8 * EPS, dpsi / e_psi + 8 * EPS
     eta, scale = orthogonality_residual(grad_u, grad_psi, disc.k_cell)

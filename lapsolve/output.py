@@ -10,6 +10,7 @@ import meshio
 import numpy as np
 
 from .atomic import OutputSet
+from .errors import InputError
 
 SUMMARY_SCHEMA = "lapsolve.summary/1"
 
@@ -119,8 +120,13 @@ def write_results(solution, folder, probes=None, picture=True, stream_function=T
 
         t0 = time.perf_counter()
         conj = conjugate_if_two_terminal(solution)
+        lb = None
         if conj is not None:
-            lb = level_bounds(solution, conj)
+            try:
+                lb = level_bounds(solution, conj)
+            except InputError:  # e.g. potentials a denormal apart: picture, no bounds
+                lb = None
+        if lb is not None:
             data["capacity_bounds"] = {"lower": lb.lower, "upper": lb.upper,
                                        "relative_width": lb.relative_width,
                                        "guaranteed": lb.geometry["guaranteed"],
