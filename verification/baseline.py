@@ -188,15 +188,10 @@ def load_baseline(against, folder="baselines"):
     path = Path(against)
     if not (path.suffix == ".json" and path.exists()):
         path = baseline_path(against, folder)
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except FileNotFoundError:
-        raise InputError(f"no baseline '{against}'", source=str(path)) from None
-    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
-        raise InputError(f"unreadable baseline ({exc})", source=str(path)) from None
-    except RecursionError:
-        raise InputError("unreadable baseline (nested too deeply)", source=str(path)) from None
-    schema = data.get("schema") if isinstance(data, dict) else None
+    if not path.exists():
+        raise InputError(f"no baseline '{against}'", source=str(path))
+    data = read_json_object(path, "baseline")
+    schema = data.get("schema")
     if schema != BASELINE_SCHEMA:
         raise InputError(f"not a baseline: schema {schema!r}, expected '{BASELINE_SCHEMA}'",
                          source=str(path), field="schema")
