@@ -223,8 +223,9 @@ class Cut:
         Triangles touching the path from its left (plus) side.
     dofs : ndarray
         Degrees of freedom on the path (vertices and edge interiors).
-    jump : float
-        Flux through the cut's electrode loop.
+    jump : float or ndarray
+        Flux through the cut's electrode loop; for a slit (:mod:`lapsolve.stream`)
+        one jump per entry of ``dofs``.
     loop : str
         That loop.
     """
@@ -234,10 +235,38 @@ class Cut:
     dofs: np.ndarray
     jump: float = 1.0
     loop: str = ""
+    fixed: bool = False  # jump set by flux data (a hole wholly of flux boundary)
+
+
+class CutField:
+    """Element-local values of a field stored by DOF values plus jumps across cuts.
+
+    Needs ``psi``, ``cuts``, ``order``, ``mesh`` and ``disc`` attributes.
+    """
+
+    def element_dofs(self):
+        """Degrees of freedom per triangle, shape (n_local, n_triangles)."""
+        if self.order == 1:
+            return self.mesh.triangles.T
+        return self.disc.basis.element_dofs
+
+    def local_values(self):
+        """Element-local values of the (cut) field, shape (n_local, n_triangles).
+
+        On the plus side of each cut the values are those of ``psi`` plus the
+        cut's jump at its degrees of freedom.
+        """
+        dofs = self.element_dofs()
+        local = self.psi[dofs]
+        for cut in self.cuts:
+            add = np.zeros(len(self.psi))
+            add[cut.dofs] = cut.jump  # one jump, or one per DOF (a slit)
+            local[:, cut.strip] += add[dofs[:, cut.strip]]
+        return local
 
 
 @dataclass
-class Conjugate:
+class Conjugate(CutField):
     """A solved stream function on the mesh of a primal solution.
 
     ``psi`` holds degrees of freedom of the primal basis (same numbering as
@@ -269,26 +298,6 @@ class Conjugate:
     flux: float = 1.0
     timings: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
-
-    def element_dofs(self):
-        """Degrees of freedom per triangle, shape (n_local, n_triangles)."""
-        if self.order == 1:
-            return self.mesh.triangles.T
-        return self.disc.basis.element_dofs
-
-    def local_values(self):
-        """Element-local values of the (cut) stream function, shape (n_local, n_triangles).
-
-        On the plus side of each cut the values are those of ``psi`` plus the
-        cut's jump at its degrees of freedom: the field the bounds integrate.
-        """
-        dofs = self.element_dofs()
-        local = self.psi[dofs]
-        for cut in self.cuts:
-            on = np.zeros(len(self.psi), bool)
-            on[cut.dofs] = True
-            local[:, cut.strip] += cut.jump * on[dofs[:, cut.strip]]
-        return local
 
 
 def solve_conjugate(solution, solver="auto", rtol=None):
@@ -548,12 +557,25 @@ def strip_triangles(mesh, path):
     a triangle on a path edge with its third vertex to the left of the edge's
     direction marks the left group.
     """
+    path = np.asarray(path, int)
+    return side_triangles(mesh, path, np.column_stack([path[:-1], path[1:]]))
+
+
+def side_triangles(mesh, pivots, edges):
+    """Triangles around the vertices ``pivots`` on the left of the oriented ``edges``.
+
+    Triangles that share an edge through a pivot are joined unless that edge is
+    one of ``edges``; the groups so formed must each lie wholly left or wholly
+    right of ``edges`` (else :class:`SolverError`). Returns the left groups.
+    """
     from scipy.sparse.csgraph import connected_components
 
     p, t = mesh.points, mesh.triangles
     n = len(p)
+    pivots = np.asarray(pivots, int)
+    edges = np.asarray(edges, int).reshape(-1, 2)
     on_path = np.zeros(n, bool)
-    on_path[path] = True
+    on_path[pivots] = True
     star = np.flatnonzero(on_path[t].any(axis=1))
     local = t[star]
     m = len(star)
@@ -562,7 +584,7 @@ def strip_triangles(mesh, path):
     third = np.concatenate([local[:, 2], local[:, 0], local[:, 1]])
     owner = np.tile(np.arange(m), 3)
     keys = _edge_keys(ea, eb, n)
-    path_keys = _edge_keys(path[:-1], path[1:], n)
+    path_keys = _edge_keys(edges[:, 0], edges[:, 1], n)
     order = np.argsort(path_keys)
     pos = np.searchsorted(path_keys[order], keys)
     pos = np.minimum(pos, len(path_keys) - 1)
@@ -575,7 +597,7 @@ def strip_triangles(mesh, path):
     graph = sp.csr_matrix((np.ones(len(same)), (o[same], o[same + 1])), shape=(m, m))
     _, comp = connected_components(graph, directed=False)
     idx = order[pos[on_cut]]
-    start, stop = p[path[idx]], p[path[idx + 1]]
+    start, stop = p[edges[idx, 0]], p[edges[idx, 1]]
     w = p[third[on_cut]]
     cross = ((stop[:, 0] - start[:, 0]) * (w[:, 1] - start[:, 1])
              - (stop[:, 1] - start[:, 1]) * (w[:, 0] - start[:, 0]))
@@ -685,6 +707,7 @@ def draw_stream_lines(ax, conjugate, n_lines=16, color="white", linewidth=0.7, *
     first = np.floor(lo / step) + 0.5
     levels = step * (first + np.arange(int(np.ceil((hi - lo) / step)) + 2))
     levels = levels[(levels > lo) & (levels < hi)]
+    style.setdefault("linestyles", "solid")  # not dashed where psi < 0
     return ax.tricontour(tri, values, levels=levels, colors=color, linewidths=linewidth,
                          **style)
 

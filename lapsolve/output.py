@@ -101,9 +101,12 @@ def summary(solution, probes=None):
 def write_results(solution, folder, probes=None, picture=True, stream_function=True):
     """Write ``solution.vtu``, ``summary.json`` and ``field.png`` into ``folder``.
 
-    For two-terminal problems the stream function (the conjugate harmonic) is
-    solved too: written as ``psi`` beside ``u``, drawn as the field lines, and its
-    energy gives guaranteed capacity bounds in the summary (see docs/bounds.md).
+    The stream function (the conjugate harmonic) is solved too, written as ``psi``
+    beside ``u`` and drawn as the field lines; the summary reports its
+    orthogonality residual ``|| k grad u_h - J grad psi_h ||``, an estimate of the
+    energy error. For two-terminal problems its energy also gives guaranteed
+    capacity bounds (see docs/bounds.md). Problems with a source have no stream
+    function: their field lines are traced along -grad u.
 
     Returns
     -------
@@ -117,6 +120,8 @@ def write_results(solution, folder, probes=None, picture=True, stream_function=T
     if stream_function:
         from .bounds import level_bounds
         from .conjugate import conjugate_if_two_terminal
+        from .stream import energy_norm, residual_notes
+        from .stream import stream_function as general_stream
 
         t0 = time.perf_counter()
         conj = conjugate_if_two_terminal(solution)
@@ -131,6 +136,22 @@ def write_results(solution, folder, probes=None, picture=True, stream_function=T
                                        "relative_width": lb.relative_width,
                                        "guaranteed": lb.geometry["guaranteed"],
                                        "hypercircle_residual": lb.eta}
+        if conj is None:
+            try:
+                conj = general_stream(solution)
+                data["orthogonality"] = conj.summary()
+            except InputError as err:
+                data["orthogonality"] = {"skipped": str(err)}
+        elif lb is not None:
+            # the unit-flux stream function, scaled optimally: same residual as the
+            # general least-squares stream function (docs/bounds.md)
+            energy = energy_norm(solution)
+            approx = residual_notes(solution)
+            data["orthogonality"] = {"eta": lb.eta, "relative": lb.eta / energy,
+                                     "guaranteed": not approx, "approximations": approx,
+                                     "cuts": len(conj.cuts),
+                                     "solver_relative_residual":
+                                         conj.solver.relative_residual}
         data["seconds"]["stream_function"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     with OutputSet(folder) as out:

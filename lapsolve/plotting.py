@@ -36,7 +36,7 @@ def draw_field(ax, tri, z, lines_tri=None, lines_z=None, segments=None, points=N
     the caller draws them (as level lines of the stream function).
     """
     cf = ax.tricontourf(tri, z, levels=48, cmap="viridis")
-    ax.tricontour(tri, z, levels=n_levels, colors="k", linewidths=0.8)
+    ax.tricontour(tri, z, levels=n_levels, colors="k", linewidths=0.8, linestyles="solid")
     if lines_tri is None:
         lines_tri, lines_z = tri, z
     interp = mtri.LinearTriInterpolator(lines_tri, lines_z)
