@@ -250,13 +250,14 @@ class CutField:
             return self.mesh.triangles.T
         return self.disc.basis.element_dofs
 
-    def local_values(self):
+    def local_values(self, dofs=None):
         """Element-local values of the (cut) field, shape (n_local, n_triangles).
 
         On the plus side of each cut the values are those of ``psi`` plus the
-        cut's jump at its degrees of freedom.
+        cut's jump at its degrees of freedom. ``dofs`` gives another local order
+        of the same DOFs per triangle (default :meth:`element_dofs`).
         """
-        dofs = self.element_dofs()
+        dofs = self.element_dofs() if dofs is None else dofs
         local = self.psi[dofs]
         for cut in self.cuts:
             add = np.zeros(len(self.psi))

@@ -1,0 +1,214 @@
+"""Effectivity of the orthogonality residual on exact cases.
+
+For each case, degree and refinement level: the residual
+``eta = || k grad u_h - J grad psi_h ||_{1/k}`` of :mod:`lapsolve.stream`, the
+true energy error ``e_u = || grad(u - u_h) ||_k`` against the exact solution, the
+error of the recovered flux ``e_sigma = || k grad u - J grad psi_h ||_{1/k}``, the
+effectivity index ``eta / e_u`` and the Prager-Synge gap
+``(eta^2 - e_u^2 - e_sigma^2) / eta^2`` (zero for an exactly equilibrated flux
+with exact data: Prager & Synge, Quart. Appl. Math. 5 (1947) 241).
+
+The errors are integrated with a rule of degree ``max(6, 2p + 2)``
+(:func:`verification.norms.quadrature_degree`), as every other norm here.
+"""
+
+import time
+from dataclasses import asdict, dataclass
+
+import numpy as np
+from skfem import CellBasis
+
+from lapsolve.solve import solve
+from lapsolve.stream import stream_function
+
+from .norms import quadrature_degree
+from .rates import expected_orders
+
+
+@dataclass
+class EffectivityRow:
+    case: str
+    order: int
+    level: int
+    dofs: int
+    h: float
+    eta: float
+    energy_error: float
+    flux_error: float
+    effectivity: float
+    identity_gap: float
+    guaranteed: bool
+    seconds: float
+
+    def to_dict(self):
+        return asdict(self)
+
+
+REFERENCE_VERTICES = np.array([[0.0, 0.0], [1.0, 0.0], [0.0, 1.0]])
+
+
+def graded_rule(vertex, degree, levels=24):
+    """A composite rule on the reference triangle, graded towards one vertex.
+
+    The triangle is split into four by its edge midpoints; the three children away
+    from ``vertex`` get a Gauss rule of ``degree``, the corner child is split
+    again, ``levels`` times (the last corner child keeps the plain rule). An
+    integrand like ``r**(-2/3)`` at the vertex (the squared gradient near a
+    re-entrant corner) is then integrated to about ``4**(-levels/3)`` relative
+    error, where a single rule of any degree stays a few per cent off.
+
+    Returns
+    -------
+    X : ndarray (2, n_points)
+    W : ndarray (n_points,)
+    """
+    from skfem.quadrature import get_quadrature
+    from skfem.refdom import RefTri
+
+    X0, W0 = get_quadrature(RefTri, degree)
+    corner = np.roll(REFERENCE_VERTICES, -vertex, axis=0)  # the vertex first
+    points, weights = [], []
+
+    def add(tri):
+        a, b, c = tri
+        det = abs((b[0] - a[0]) * (c[1] - a[1]) - (b[1] - a[1]) * (c[0] - a[0]))
+        points.append(a[:, None] + np.outer(b - a, X0[0]) + np.outer(c - a, X0[1]))
+        weights.append(W0 * det)
+
+    tri = corner
+    for _ in range(levels):
+        a, b, c = tri
+        ab, ac, bc = (a + b) / 2, (a + c) / 2, (b + c) / 2
+        add(np.array([ab, b, bc]))
+        add(np.array([ac, bc, c]))
+        add(np.array([ab, bc, ac]))
+        tri = np.array([a, ab, ac])
+    add(tri)
+    return np.hstack(points), np.concatenate(weights)
+
+
+def energy_errors(solution, stream, case):
+    """``(e_u, e_sigma)``: ``|| grad(u - u_h) ||_k`` and ``|| k grad u - J grad psi_h ||_{1/k}``.
+
+    Rule of degree :func:`verification.norms.quadrature_degree`; triangles at the
+    case's singular point (if any) get :func:`graded_rule` towards it.
+    """
+    basis = solution.basis
+    mesh = basis.mesh
+    degree = quadrature_degree(basis.elem.maxdeg)
+    local_all = stream.local_values(basis.element_dofs)
+    k_all = np.asarray(solution.disc.k_cell, float)
+    groups = [(np.arange(mesh.t.shape[1]), None)]
+    if case.singular_point is not None and case.singular_exponent < 1:
+        p = mesh.p[:, : mesh.t[:3].max() + 1]
+        node = int(np.argmin(np.hypot(p[0] - case.singular_point[0],
+                                      p[1] - case.singular_point[1])))
+        corner = mesh.t[:3] == node
+        touched = np.flatnonzero(corner.any(axis=0))
+        if len(touched) and np.hypot(*(p[:, node] - np.asarray(case.singular_point))) < 1e-9:
+            groups = [(np.flatnonzero(~corner.any(axis=0)), None)]
+            for v in range(3):
+                groups.append((np.flatnonzero(corner[v]), graded_rule(v, degree + 4)))
+    e_u = e_s = 0.0
+    for elements, rule in groups:
+        if not len(elements):
+            continue
+        if rule is None:
+            cb = CellBasis(mesh, basis.elem, elements=elements, intorder=degree,
+                           dofs=basis.dofs)
+        else:
+            cb = CellBasis(mesh, basis.elem, elements=elements, quadrature=rule,
+                           dofs=basis.dofs)
+        x = np.asarray(cb.global_coordinates())
+        ex, ey = case.grad(x[0], x[1])
+        k = k_all[elements][:, None]
+        uh = cb.interpolate(solution.u).grad
+        local = local_all[:, elements]
+        gx = np.zeros(cb.dx.shape)
+        gy = np.zeros(cb.dx.shape)
+        for j in range(cb.Nbfun):
+            g = cb.basis[j][0].grad
+            gx += local[j][:, None] * g[0]
+            gy += local[j][:, None] * g[1]
+        e_u += float(np.sum(cb.dx * k * ((ex - uh[0]) ** 2 + (ey - uh[1]) ** 2)))
+        # k grad u - J grad psi_h, with J (a, b) = (-b, a)
+        e_s += float(np.sum(cb.dx / k * ((k * ex + gy) ** 2 + (k * ey - gx) ** 2)))
+    return float(np.sqrt(e_u)), float(np.sqrt(e_s))
+
+
+def effectivity_rows(case, order, levels, size=None, progress=None):
+    """One :class:`EffectivityRow` per uniform refinement level of ``case``."""
+    problem = case.problem(size)
+    rows = []
+    for level in range(levels):
+        t0 = time.perf_counter()
+        solution = solve(problem, order=order, refine=level)
+        stream = stream_function(solution)
+        e_u, e_s = energy_errors(solution, stream, case)
+        eta = stream.eta
+        gap = (eta**2 - e_u**2 - e_s**2) / eta**2 if eta > 0 else float("nan")
+        rows.append(EffectivityRow(case.name, order, level, solution.dofs, solution.mesh.h(),
+                                   eta, e_u, e_s, eta / e_u if e_u > 0 else float("nan"), gap,
+                                   stream.guaranteed, time.perf_counter() - t0))
+        if progress:
+            progress(rows[-1])
+    return rows
+
+
+def observed_order(rows, key="eta"):
+    """Order in h of ``key`` between the last two levels (nan with fewer)."""
+    if len(rows) < 2:
+        return float("nan")
+    a, b = rows[-2], rows[-1]
+    return float(np.log(getattr(a, key) / getattr(b, key)) / np.log(a.h / b.h))
+
+
+def expected_energy_order(case, order):
+    """``min(p, lambda)``: the energy-norm order in h of uniform refinement."""
+    return expected_orders(order, case.singular_exponent)["H1"]
+
+
+def markdown_table(results, expected):
+    """Markdown rows: case, P, effectivity per level, observed and expected order of eta.
+
+    ``results`` and ``expected`` are keyed by ``(case name, degree)``.
+    """
+    levels = max(len(rows) for rows in results.values())
+    head = ("| case | P | " + " | ".join(f"level {i}" for i in range(levels))
+            + " | order of eta | expected | max gap |")
+    lines = [head, "|" + "---|" * (levels + 5)]
+    for key, rows in results.items():
+        eff = [f"{r.effectivity:.3f}" for r in rows] + [""] * (levels - len(rows))
+        gap = max(abs(r.identity_gap) for r in rows)
+        lines.append(f"| {key[0]} | {key[1]} | " + " | ".join(eff)
+                     + f" | {observed_order(rows):.2f} | {expected[key]:.2f} | {gap:.1e} |")
+    return lines
+
+
+def effectivity_png(results, dpi=120):
+    """PNG bytes: effectivity index against DOFs, one panel per degree."""
+    import io
+
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    orders = sorted({key[1] for key in results})
+    fig, axes = plt.subplots(1, len(orders), figsize=(5.5 * len(orders), 4.5), squeeze=False,
+                             sharey=True)
+    for ax, order in zip(axes[0], orders):
+        for (name, p), rows in results.items():
+            if p == order:
+                ax.semilogx([r.dofs for r in rows], [r.effectivity for r in rows], "o-",
+                            ms=3, label=name)
+        ax.axhline(1.0, color="k", lw=0.8)
+        ax.set_title(f"P{order}: effectivity of the orthogonality residual", fontsize=9)
+        ax.set_xlabel("DOFs")
+        ax.grid(True, which="both", alpha=0.3)
+    axes[0][0].set_ylabel("eta / energy error")
+    axes[0][-1].legend(fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=dpi, bbox_inches="tight")
+    plt.close(fig)
+    return buf.getvalue()
