@@ -29,6 +29,18 @@ def format_summary(data, physics, out=None):
         if physics.resistance_label:
             lines.append(f"  {physics.resistance_label}{_unit(physics.resistance_unit)}: "
                          f"{cap['resistance_from_energy']:.8e}")
+    bounds = data.get("capacity_bounds")
+    if bounds:
+        lines.append(f"  bounds    {bounds['lower']:.8e} <= {physics.capacity_label} <= "
+                     f"{bounds['upper']:.8e} (relative width {bounds['relative_width']:.1e}"
+                     + ("" if bounds["guaranteed"] else ", for the meshed domain") + ")")
+    ortho = data.get("orthogonality")
+    if ortho and "eta" in ortho:
+        kind = "upper bound" if ortho["guaranteed"] else "estimate"
+        lines.append(f"  residual  ||k grad u - J grad psi|| = {ortho['eta']:.3e} "
+                     f"({ortho['relative']:.1e} of ||grad u||_k): energy-error {kind}")
+    elif ortho:
+        lines.append(f"  residual  not computed: {ortho['skipped']}")
     for p in data.get("probes", []):
         lines.append(f"  probe ({p['x']:g}, {p['y']:g}): u = {p['u']:.8g}, "
                      f"field = ({p['field'][0]:.5g}, {p['field'][1]:.5g})")
