@@ -197,11 +197,16 @@ def effectivity_png(results, dpi=120):
     orders = sorted({key[1] for key in results})
     fig, axes = plt.subplots(1, len(orders), figsize=(5.5 * len(orders), 4.5), squeeze=False,
                              sharey=True)
+    names = list(dict.fromkeys(key[0] for key in results))
+    colours = plt.get_cmap("tab20")
+    markers = "os^vD<>ph*"
     for ax, order in zip(axes[0], orders):
         for (name, p), rows in results.items():
             if p == order:
-                ax.semilogx([r.dofs for r in rows], [r.effectivity for r in rows], "o-",
-                            ms=3, label=name)
+                i = names.index(name)
+                ax.semilogx([r.dofs for r in rows], [r.effectivity for r in rows],
+                            marker=markers[i % len(markers)], ms=4, lw=1,
+                            color=colours(i % 20), label=name)
         ax.axhline(1.0, color="k", lw=0.8)
         ax.set_title(f"P{order}: effectivity of the orthogonality residual", fontsize=9)
         ax.set_xlabel("DOFs")
