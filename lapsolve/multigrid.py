@@ -37,7 +37,7 @@ def p2_to_p1(n_vertices, facets):
     return sp.csr_matrix((vals, (rows, cols)), shape=(n_vertices + m, n_vertices))
 
 
-def hierarchy(A, mesh, fixed=None, min_coarse=2000, facets=None):
+def hierarchy(A, mesh, fixed=None, min_coarse=2000, facets=None, embed=None):
     """A pyamg multilevel solver built from the mesh's refinement history.
 
     Parameters
@@ -53,6 +53,11 @@ def hierarchy(A, mesh, fixed=None, min_coarse=2000, facets=None):
         not interpolate into them.
     min_coarse : int
         Stop coarsening below this many unknowns (direct solve there).
+    embed : ndarray of int, optional
+        For a system whose unknowns are not the mesh's DOFs: per unknown, the mesh
+        DOF it is the value of, or -1 for an unknown of its own (a constant on a
+        boundary run, a jump). Those are carried unchanged to every level, so the
+        coarsest direct solve treats them exactly.
 
     Returns
     -------
@@ -67,6 +72,8 @@ def hierarchy(A, mesh, fixed=None, min_coarse=2000, facets=None):
         Ps = [p2_to_p1(len(mesh.points), facets)] + Ps
     if not Ps:
         return None
+    if embed is not None:
+        Ps = _embedded(Ps, np.asarray(embed))
     levels = []
     A = A.tocsr()
     for i, P in enumerate(Ps):
@@ -90,3 +97,17 @@ def hierarchy(A, mesh, fixed=None, min_coarse=2000, facets=None):
     change_smoothers(ml, presmoother=("gauss_seidel", {"sweep": "symmetric"}),
                      postsmoother=("gauss_seidel", {"sweep": "symmetric"}))
     return ml
+
+
+def _embedded(Ps, embed):
+    """Prolongations for unknowns ``embed`` (mesh DOF or -1 for an own unknown)."""
+    mesh_rows = np.flatnonzero(embed >= 0)
+    extra = np.flatnonzero(embed < 0)
+    n, n_mesh, n_extra = len(embed), Ps[0].shape[0], len(extra)
+    select = sp.csr_matrix((np.ones(len(mesh_rows)), (mesh_rows, embed[mesh_rows])),
+                           shape=(n, n_mesh))
+    own = sp.csr_matrix((np.ones(n_extra), (extra, np.arange(n_extra))), shape=(n, n_extra))
+    out = [sp.hstack([select @ Ps[0], own]).tocsr()]
+    eye = sp.identity(n_extra, format="csr")
+    out += [sp.block_diag((P, eye), format="csr") for P in Ps[1:]]
+    return out

@@ -10,7 +10,7 @@ import meshio
 import numpy as np
 
 from .atomic import OutputSet
-from .errors import InputError
+from .errors import InputError, LapsolveError
 
 SUMMARY_SCHEMA = "lapsolve.summary/1"
 
@@ -140,7 +140,7 @@ def write_results(solution, folder, probes=None, picture=True, stream_function=T
             try:
                 conj = general_stream(solution)
                 data["orthogonality"] = conj.summary()
-            except InputError as err:
+            except LapsolveError as err:  # no stream function here: say why, keep the rest
                 data["orthogonality"] = {"skipped": str(err)}
         elif lb is not None:
             # the unit-flux stream function, scaled optimally: same residual as the

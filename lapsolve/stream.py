@@ -186,12 +186,22 @@ def stream_function(solution, rtol=None):
     _, col = np.unique(column[free], return_inverse=True)
     rows = np.flatnonzero(free)
     T = sp.csr_matrix((np.ones(len(rows)), (rows, col)), shape=(total, int(col.max()) + 1))
+    # A slit's unknowns are its plus-side values q = psi + jump, not the jumps: in
+    # (psi, q) the matrix is the stiffness of the cut-open mesh, which AMG handles
+    # well (in (psi, jump) AMG-CG took 104 iterations at 185k P1 DOFs)
+    S = _plus_side_values(n, cuts, offsets)
+    if S is not None:
+        T, z0 = (S @ T).tocsr(), S @ z0
     Ar = (T.T @ A @ T).tocsr()
     br = T.T @ (rhs - A @ z0)
     timings["assemble"] = time.perf_counter() - t0
 
+    embed = np.unique(column[free])
+    representatives = [dofs[0] for dofs, _ in chains[1:]]
+    embed[(embed >= n) | np.isin(embed, representatives)] = -1
     t0 = time.perf_counter()
-    y, info = solve_linear(Ar, br, method="auto", rtol=rtol or solution.solver.rtol)
+    y, info = solve_linear(Ar, br, method="auto", rtol=rtol or solution.solver.rtol,
+                           multilevel=_multilevel(Ar, disc, embed))
     z = T @ y + z0
     timings["solve"] = time.perf_counter() - t0
     psi = z[:n]
@@ -210,6 +220,43 @@ def stream_function(solution, rtol=None):
     result.guaranteed = not result.conditions
     timings["residual"] = time.perf_counter() - t0
     return result
+
+
+def _multilevel(A, disc, embed):
+    """A deferred geometric/p-multigrid hierarchy for the stream-function system, or None.
+
+    The mesh DOFs coarsen as in the primal solve; run constants, jumps and slit
+    values stay unknowns of their own down to the coarsest (direct) level.
+    """
+    mesh = disc.mesh
+    if disc.order > 2 or not getattr(mesh, "parents", ()):
+        return None
+
+    def build():
+        from .multigrid import hierarchy
+
+        facets = disc.skmesh.facets if disc.order == 2 else None
+        return hierarchy(A, mesh, facets=facets, embed=embed)
+
+    return build
+
+
+def _plus_side_values(n, cuts, offsets):
+    """``z = S w``: slit jumps from plus-side values, ``jump = q - psi`` (None if no slit)."""
+    rows, cols, vals = [], [], []
+    for i, cut in enumerate(cuts):
+        if np.ndim(cut.jump):
+            j = offsets[i] + np.arange(len(cut.dofs))
+            rows.append(j)
+            cols.append(cut.dofs)
+            vals.append(-np.ones(len(j)))
+    if not rows:
+        return None
+    total = offsets[-1]
+    eye = sp.identity(total, format="csr")
+    minus = sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
+                          shape=(total, total))
+    return eye + minus
 
 
 def orthogonality(solution, stream):

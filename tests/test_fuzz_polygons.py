@@ -173,6 +173,9 @@ def run_cli_solve(text, order=1, balanced=True, k_max=1.0):
             assert err == "", err
             data = json.loads((out_dir / "summary.json").read_text())
             assert data == json.loads(stdout.getvalue())
+            # the stream function's residual is reported, or the reason it is not
+            ortho = data.get("orthogonality", {"skipped": "two-terminal bounds failed"})
+            assert "skipped" in ortho or (math.isfinite(ortho["eta"]) and ortho["eta"] >= 0)
             fluxes = list(data["fluxes"].values())
             # Conservation (divergence theorem): without a source the outward fluxes of
             # the parts balance. Checked where two or more parts carry flux, to 1e-5 of
