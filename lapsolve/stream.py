@@ -108,7 +108,7 @@ class StreamFunction(CutField):
                 "solver_relative_residual": self.solver.relative_residual}
 
 
-def stream_function(solution, rtol=None):
+def stream_function(solution, rtol=None, solver="auto"):
     """The least-squares stream function and orthogonality residual of ``solution``.
 
     Parameters
@@ -116,6 +116,8 @@ def stream_function(solution, rtol=None):
     solution : lapsolve.Solution
     rtol : float, optional
         Relative residual of an iterative solve; default that of the primal solve.
+    solver : {"auto", "direct", "amg", "gmg"}
+        ``gmg`` needs P1 or P2 on a uniformly refined mesh (falls back to AMG).
 
     Returns
     -------
@@ -200,8 +202,11 @@ def stream_function(solution, rtol=None):
     representatives = [dofs[0] for dofs, _ in chains[1:]]
     embed[(embed >= n) | np.isin(embed, representatives)] = -1
     t0 = time.perf_counter()
-    y, info = solve_linear(Ar, br, method="auto", rtol=rtol or solution.solver.rtol,
-                           multilevel=_multilevel(Ar, disc, embed))
+    multilevel = _multilevel(Ar, disc, embed)
+    if solver == "gmg" and multilevel is None:
+        solver = "amg"
+    y, info = solve_linear(Ar, br, method=solver, rtol=rtol or solution.solver.rtol,
+                           multilevel=multilevel)
     z = T @ y + z0
     timings["solve"] = time.perf_counter() - t0
     psi = z[:n]
