@@ -185,7 +185,10 @@ def stream_function(solution, rtol=None, solver="auto"):
     if not chains:
         column[0] = -1  # psi is defined up to a constant
     free = column >= 0
-    _, col = np.unique(column[free], return_inverse=True)
+    present = np.zeros(total, bool)  # unique column values in O(n), no sort
+    present[column[free]] = True
+    columns = np.flatnonzero(present)
+    col = (np.cumsum(present) - 1)[column[free]]
     rows = np.flatnonzero(free)
     T = sp.csr_matrix((np.ones(len(rows)), (rows, col)), shape=(total, int(col.max()) + 1))
     # A slit's unknowns are its plus-side values q = psi + jump, not the jumps: in
@@ -198,11 +201,8 @@ def stream_function(solution, rtol=None, solver="auto"):
     br = T.T @ (rhs - A @ z0)
     timings["assemble"] = time.perf_counter() - t0
 
-    embed = np.unique(column[free])
-    representatives = [dofs[0] for dofs, _ in chains[1:]]
-    embed[(embed >= n) | np.isin(embed, representatives)] = -1
     t0 = time.perf_counter()
-    multilevel = _multilevel(Ar, disc, embed)
+    multilevel = _multilevel(Ar, disc, columns, n, chains, cuts, offsets)
     if solver == "gmg" and multilevel is None:
         solver = "amg"
     y, info = solve_linear(Ar, br, method=solver, rtol=rtol or solution.solver.rtol,
@@ -227,21 +227,39 @@ def stream_function(solution, rtol=None, solver="auto"):
     return result
 
 
-def _multilevel(A, disc, embed):
+def _multilevel(A, disc, columns, n, chains, cuts, offsets):
     """A deferred geometric/p-multigrid hierarchy for the stream-function system, or None.
 
-    The mesh DOFs coarsen as in the primal solve; run constants, jumps and slit
-    values stay unknowns of their own down to the coarsest (direct) level.
+    ``columns`` names each unknown: a DOF (its value), a run's first DOF (the run's
+    constant) or ``n + i`` (jump unknown ``i``). The mesh DOFs coarsen as in the
+    primal solve; run constants and hole jumps stay unknowns of their own down to
+    the coarsest (direct) level; a slit's plus-side values coarsen along the slit.
     """
     mesh = disc.mesh
     if disc.order > 2 or not getattr(mesh, "parents", ()):
         return None
+    embed = columns.copy()
+    embed[(columns >= n) | np.isin(columns, [dofs[0] for dofs, _ in chains[1:]])] = -1
+    twins = np.full(len(columns), -1)
+    plus = np.zeros(n, bool)
+    slit_dofs = []
+    for i, cut in enumerate(cuts):
+        if np.ndim(cut.jump):  # a slit: jump unknowns offsets[i]... are plus-side values
+            pos = np.searchsorted(columns, offsets[i] + np.arange(len(cut.dofs)))
+            twins[pos] = cut.dofs
+            dofs = disc.mesh.triangles[cut.strip].ravel() if disc.order == 1 else \
+                disc.basis.element_dofs[:, cut.strip].ravel()
+            plus[dofs] = True
+            slit_dofs.append(cut.path)
+            slit_dofs.append(cut.dofs)
+    if slit_dofs:
+        plus[np.concatenate(slit_dofs)] = False
 
     def build():
         from .multigrid import hierarchy
 
         facets = disc.skmesh.facets if disc.order == 2 else None
-        return hierarchy(A, mesh, facets=facets, embed=embed)
+        return hierarchy(A, mesh, facets=facets, embed=embed, twins=twins, plus=plus)
 
     return build
 
@@ -267,30 +285,50 @@ def _plus_side_values(n, cuts, offsets):
 def orthogonality(solution, stream):
     """``(|| k grad u_h - J grad psi_h ||_{1/k}, || grad u_h ||_k)`` by exact quadrature
     on straight triangles (quadrature of degree ``2 p`` on curved ones)."""
-    from .bounds import ElementGeometry, field_gradients
-
     disc = solution.disc
-    geometry = ElementGeometry.of(disc.mesh)
     dofs = stream.element_dofs()
-    gu = field_gradients(disc, solution.u[dofs], geometry)
-    gp = field_gradients(disc, stream.local_values(), geometry)
+    (ux, uy), w = local_gradients(disc, solution.u[dofs])
+    (px, py), _ = local_gradients(disc, stream.local_values())
     k = np.asarray(disc.k_cell, float)[:, None]
-    u, p, w = gu.values, gp.values, gu.weights
-    rx, ry = k * u[0] + p[1], k * u[1] - p[0]
+    rx, ry = k * ux + py, k * uy - px  # k grad u - J grad psi, J (a, b) = (-b, a)
     eta = float(np.sqrt(np.sum(w / k * (rx**2 + ry**2))))
-    energy = float(np.sqrt(np.sum(w * k * (u[0] ** 2 + u[1] ** 2))))
+    energy = float(np.sqrt(np.sum(w * k * (ux**2 + uy**2))))
     return eta, energy
 
 
 def energy_norm(solution):
     """``|| grad u_h ||_k``, by exact quadrature on straight triangles."""
-    from .bounds import field_gradients
-
     disc = solution.disc
     dofs = disc.mesh.triangles.T if disc.order == 1 else disc.basis.element_dofs
-    g = field_gradients(disc, solution.u[dofs])
+    (gx, gy), w = local_gradients(disc, solution.u[dofs])
     k = np.asarray(disc.k_cell, float)[:, None]
-    return float(np.sqrt(np.sum(g.weights * k * (g.values[0] ** 2 + g.values[1] ** 2))))
+    return float(np.sqrt(np.sum(w * k * (gx**2 + gy**2))))
+
+
+def local_gradients(disc, local):
+    """Gradient of a field with element-local values ``local`` (n_local, n_triangles)
+    at the quadrature points: ``((gx, gy), weights)``, each (n_triangles, n_points).
+
+    P1: one point per triangle (the gradient is constant), weight = area; else the
+    basis's own rule (degree ``2 p``: exact for squared gradients on straight
+    triangles). Local order: ``mesh.triangles`` for P1, the basis's DOF table else.
+    """
+    if disc.order == 1:
+        p, t = disc.mesh.points, disc.mesh.triangles
+        e1, e2 = p[t[:, 1]] - p[t[:, 0]], p[t[:, 2]] - p[t[:, 0]]
+        det = e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0]
+        d1, d2 = local[1] - local[0], local[2] - local[0]
+        gx = (e2[:, 1] * d1 - e1[:, 1] * d2) / det
+        gy = (e1[:, 0] * d2 - e2[:, 0] * d1) / det
+        return (gx[:, None], gy[:, None]), 0.5 * np.abs(det)[:, None]
+    basis = disc.basis
+    gx = np.zeros(basis.dx.shape)
+    gy = np.zeros(basis.dx.shape)
+    for j in range(basis.Nbfun):
+        g = basis.basis[j][0].grad
+        gx += local[j][:, None] * g[0]
+        gy += local[j][:, None] * g[1]
+    return (gx, gy), basis.dx
 
 
 def residual_notes(solution):
@@ -313,26 +351,31 @@ def residual_notes(solution):
     return out
 
 
+@dataclass
+class _Triangles:
+    """Points and a subset of triangles, enough for :func:`local_gradients` (P1)."""
+
+    points: np.ndarray
+    triangles: np.ndarray
+
+
 def rotated_load(disc, u, elements=None):
     """The vector ``int grad u_h . J grad phi_i`` (over ``elements`` only if given)."""
     if disc.order == 1:
-        p, t = disc.mesh.points, disc.mesh.triangles
-        if elements is not None:
-            t = t[elements]
-        a, b, c = (p[t[:, i]] for i in range(3))
-        det = (b[:, 0] - a[:, 0]) * (c[:, 1] - a[:, 1]) - (b[:, 1] - a[:, 1]) * (c[:, 0] - a[:, 0])
-        # grad of the hat function of vertex i: J-rotated opposite edge / det
-        grads = []
-        for q, r in ((b, c), (c, a), (a, b)):
-            grads.append(np.stack([q[:, 1] - r[:, 1], r[:, 0] - q[:, 0]]) / det)
-        uloc = u[t]
-        gu = sum(uloc[:, i] * grads[i] for i in range(3))
-        area = 0.5 * np.abs(det)
+        t = disc.mesh.triangles if elements is None else disc.mesh.triangles[elements]
+        p = disc.mesh.points
+        # J grad phi_i = (q - r) / det for the edge q -> r opposite vertex i (cyclic
+        # order), so int over the triangle of grad u . J grad phi_i is
+        # area * gu . (q - r) / det = sign(det) / 2 * gu . (q - r)
+        (gx, gy), _ = local_gradients(replace(disc, mesh=_Triangles(p, t)), u[t.T])
+        gx, gy = gx[:, 0], gy[:, 0]
+        a, b, c = p[t[:, 0]], p[t[:, 1]], p[t[:, 2]]
+        e1, e2 = b - a, c - a
+        sign = np.sign(e1[:, 0] * e2[:, 1] - e1[:, 1] * e2[:, 0])
         out = np.zeros(len(p))
-        for i in range(3):
-            # grad u . J grad phi = -gu_x phi_y + gu_y phi_x
-            val = area * (-gu[0] * grads[i][1] + gu[1] * grads[i][0])
-            np.add.at(out, t[:, i], val)
+        for i, (q, r) in enumerate(((b, c), (c, a), (a, b))):
+            val = 0.5 * sign * (gx * (q[:, 0] - r[:, 0]) + gy * (q[:, 1] - r[:, 1]))
+            out += np.bincount(t[:, i], weights=val, minlength=len(p))
         return out
     from skfem import CellBasis, LinearForm, asm
 
@@ -361,7 +404,18 @@ class _Boundary:
         self.flux = np.array([pi == INSULATED or kinds[pi] in FLUX_KINDS for pi in part], bool)
         a, b = mesh.segments[self.segs].T.copy()
         facet = disc.segment_facets[self.segs]
-        tri = disc.straight.f2t[0, facet]
+        # a triangle on each boundary facet, and how many (2: a slit), without
+        # scikit-fem's full facet-to-triangle inverse (0.8 s at 7e5 vertices)
+        t2f = disc.straight.t2f
+        on = np.zeros(t2f.max() + 1, bool)
+        on[facet] = True
+        hit = on[t2f]
+        owner = np.broadcast_to(np.arange(t2f.shape[1]), t2f.shape)[hit]
+        where = t2f[hit]
+        first = np.full(len(on), -1)
+        first[where[::-1]] = owner[::-1]
+        self.sides = np.bincount(where, minlength=len(on))[facet]
+        tri = first[facet]
         third = mesh.triangles[tri].sum(axis=1) - a - b
         p = mesh.points
         cross = ((p[b, 0] - p[a, 0]) * (p[third, 1] - p[a, 1])
@@ -415,7 +469,7 @@ class _Boundary:
         across them, ``psi`` is not). Each slit gets one jump per DOF on it but its
         free tip, where both sides meet."""
         mesh, disc = self.mesh, self.disc
-        two_sided = disc.straight.f2t[1, self.facet] >= 0
+        two_sided = self.sides == 2
         if not np.any(two_sided):
             return []
         if np.any(two_sided & self.flux):

@@ -233,7 +233,25 @@ def test_multigrid_stream_solve_matches_the_direct_one(name, order):
     direct = stream_function(solution, solver="direct")
     gmg = stream_function(solution, solver="gmg", rtol=1e-12)
     assert gmg.solver.method == "gmg" and gmg.solver.converged
-    assert gmg.solver.iterations < 80
+    # measured 10-18 iterations; a slit whose plus-side values were not coarsened
+    # took 49 at 185k DOFs and grew with the mesh
+    assert gmg.solver.iterations < 25
     assert gmg.eta == pytest.approx(direct.eta, rel=1e-8)
     scale = np.ptp(direct.local_values())
     assert np.max(np.abs(gmg.local_values() - direct.local_values())) < 1e-8 * scale
+
+
+def test_solve_can_skip_the_stream_function(tmp_path, capsys):
+    import meshio
+    from helpers import EXAMPLES
+
+    example = str(EXAMPLES / "offset_cable.toml")
+    assert main(["solve", example, "--out", str(tmp_path / "a"), "--no-plot",
+                 "--no-stream"]) == 0
+    data = json.loads((tmp_path / "a" / "summary.json").read_text())
+    assert "orthogonality" not in data and "capacity_bounds" not in data
+    assert "psi" not in meshio.read(tmp_path / "a" / "solution.vtu").point_data
+    assert main(["solve", example, "--out", str(tmp_path / "b"), "--no-plot"]) == 0
+    data = json.loads((tmp_path / "b" / "summary.json").read_text())
+    assert data["orthogonality"]["eta"] > 0 and "capacity_bounds" in data
+    assert "residual  ||k grad u - J grad psi||" in capsys.readouterr().out

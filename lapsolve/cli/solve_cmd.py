@@ -23,6 +23,9 @@ def add_args(p):
                    help="report u and the field at a point (repeatable)")
     p.add_argument("--out", metavar="DIR", help="folder for the result files")
     p.add_argument("--no-plot", action="store_true", help="skip field.png")
+    p.add_argument("--no-stream", action="store_true",
+                   help="skip the stream function (psi, its field lines, the orthogonality "
+                        "residual and, for two-terminal problems, the capacity bounds)")
     p.add_argument("--json", action="store_true", help="print the summary as JSON")
 
 
@@ -77,7 +80,8 @@ def run(args):
     solution = solve(problem, order=args.order, mesh=mesh, refine=args.refine,
                      solver=args.solver)
     if args.out:
-        data = write_results(solution, args.out, probes, picture=not args.no_plot)
+        data = write_results(solution, args.out, probes, picture=not args.no_plot,
+                             stream_function=not args.no_stream)
     else:
         data = summary(solution, probes)
     if args.json:
