@@ -23,11 +23,12 @@ import argparse
 import json
 import os
 import statistics
-import subprocess
 import sys
 import time
 
-import numpy as np
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+
+from common import mesh_for, spawn  # noqa: E402
 
 
 def _problem(case):
@@ -49,30 +50,12 @@ def _problem(case):
     return problem_from_dict(data)
 
 
-def _mesh_for(problem, order, target):
-    """The coarse mesh refined until the DOF count is nearest ``target``."""
-    from lapsolve.meshing import triangulate
-
-    mesh = triangulate(problem)
-    best, gap = mesh, np.inf
-    while True:
-        nv, nt = len(mesh.points), mesh.n_triangles
-        ne = nv + nt - 1 + (len(problem.holes))  # Euler: V - E + T = 1 - holes
-        dofs = nv if order == 1 else nv + ne if order == 2 else nv + 2 * ne + nt
-        g = abs(np.log(dofs / target))
-        if g < gap:
-            best, gap = mesh, g
-        if dofs > target:
-            return best
-        mesh = mesh.refined(1)
-
-
 def run_child(case, order, target, repeat):
     from lapsolve.bounds import level_bounds
     from lapsolve.solve import solve
 
     problem = _problem(case)
-    mesh = _mesh_for(problem, order, target)
+    mesh = mesh_for(problem, order, target)
     solve_times, bound_times, detail = [], [], None
     for _ in range(repeat):
         t0 = time.perf_counter()
@@ -90,17 +73,6 @@ def run_child(case, order, target, repeat):
             "relative_width": detail.relative_width,
             "solver_u": detail.solver_u, "solver_psi": detail.solver_psi,
             "stages": detail.seconds}
-
-
-def _spawn(case, order, target, repeat):
-    cmd = [sys.executable, __file__, "--child", case, str(order), str(target), str(repeat)]
-    load = os.getloadavg()
-    res = subprocess.run(cmd, capture_output=True, text=True, check=False)
-    if res.returncode != 0:
-        raise RuntimeError(f"{case} P{order} failed:\n{res.stderr[-2000:]}")
-    out = json.loads(res.stdout.strip().splitlines()[-1])
-    out["load_before"], out["load_after"] = list(load), list(os.getloadavg())
-    return out
 
 
 def main(argv=None):
@@ -122,7 +94,7 @@ def main(argv=None):
     rows = []
     for case in args.cases:
         for order in args.orders:
-            row = _spawn(case, order, args.dofs, args.repeat)
+            row = spawn(__file__, case, order, args.dofs, args.repeat)
             rows.append(row)
             su, sp = row["solver_u"], row["solver_psi"]
             print(f"{case:>7} {order:>2} {row['dofs']:>10,} "

@@ -26,13 +26,12 @@ import argparse
 import json
 import os
 import statistics
-import subprocess
 import sys
 import time
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 
-from bounds_cost import _mesh_for  # noqa: E402
+from common import mesh_for, spawn  # noqa: E402
 
 CASES = ("cylinder-in-field", "slit")
 
@@ -43,7 +42,7 @@ def run_child(name, order, target, repeat):
     from verification.exact.catalogue import CASES as CATALOGUE
 
     problem = CATALOGUE[name].problem()
-    mesh = _mesh_for(problem, order, target)
+    mesh = mesh_for(problem, order, target)
     solve_times, stream_times = [], []
     for _ in range(repeat):
         t0 = time.perf_counter()
@@ -57,17 +56,6 @@ def run_child(name, order, target, repeat):
             "ratio": statistics.median(stream_times) / statistics.median(solve_times),
             "solver_u": solution.solver.to_dict(), "solver_psi": stream.solver.to_dict(),
             "relative_residual": stream.relative, "stages": stream.timings}
-
-
-def _spawn(name, order, target, repeat):
-    cmd = [sys.executable, __file__, "--child", name, str(order), str(target), str(repeat)]
-    load = os.getloadavg()
-    res = subprocess.run(cmd, capture_output=True, text=True, check=False)
-    if res.returncode != 0:
-        raise RuntimeError(f"{name} P{order} failed:\n{res.stderr[-2000:]}")
-    out = json.loads(res.stdout.strip().splitlines()[-1])
-    out["load_before"], out["load_after"] = list(load), list(os.getloadavg())
-    return out
 
 
 def main(argv=None):
@@ -88,7 +76,7 @@ def main(argv=None):
     rows = []
     for name in args.cases:
         for order in args.orders:
-            row = _spawn(name, order, args.dofs, args.repeat)
+            row = spawn(__file__, name, order, args.dofs, args.repeat)
             rows.append(row)
             su, sp = row["solver_u"], row["solver_psi"]
             print(f"{name:>17} {order:>2} {row['dofs']:>10,} "

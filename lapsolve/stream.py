@@ -321,14 +321,20 @@ def local_gradients(disc, local):
         gx = (e2[:, 1] * d1 - e1[:, 1] * d2) / det
         gy = (e1[:, 0] * d2 - e2[:, 0] * d1) / det
         return (gx[:, None], gy[:, None]), 0.5 * np.abs(det)[:, None]
-    basis = disc.basis
+    return basis_gradients(disc.basis, local), disc.basis.dx
+
+
+def basis_gradients(basis, local):
+    """``(gx, gy)`` at the quadrature points of a scikit-fem ``basis`` from element-local
+    values ``local`` (n_local, n_elements) in the order of ``basis.element_dofs``
+    (a field that need not be continuous, e.g. cut open along a path)."""
     gx = np.zeros(basis.dx.shape)
     gy = np.zeros(basis.dx.shape)
     for j in range(basis.Nbfun):
         g = basis.basis[j][0].grad
         gx += local[j][:, None] * g[0]
         gy += local[j][:, None] * g[1]
-    return (gx, gy), basis.dx
+    return gx, gy
 
 
 def residual_notes(solution):
