@@ -27,9 +27,10 @@ from lapsolve.errors import InputError
 from lapsolve.problem import Condition
 from lapsolve.solve import solve
 from lapsolve.stream import stream_function
-from verification.estimator import effectivity_rows, energy_errors, graded_rule
+from verification.estimator import effectivity_rows, energy_errors
 from verification.exact.cases.coax import A, B
 from verification.exact.catalogue import CASES
+from verification.norms import graded_rule
 
 
 def test_graded_rule_integrates_a_corner_singularity():
@@ -42,11 +43,17 @@ def test_graded_rule_integrates_a_corner_singularity():
     X, W = graded_rule(0, 6)
     got = np.sum(W * np.hypot(X[0], X[1]) ** (-2 / 3))
     assert got == pytest.approx(exact, rel=3e-5)  # measured 1.5e-5 at degree 6
+    X, W = graded_rule(0, 6, levels=0)  # one plain rule: measured 9e-4 off
+    assert abs(np.sum(W * np.hypot(X[0], X[1]) ** (-2 / 3)) / exact - 1) > 5e-4
     X, W = graded_rule(0, 10)
     got = np.sum(W * np.hypot(X[0], X[1]) ** (-2 / 3))
     assert got == pytest.approx(exact, rel=1e-6)  # measured 3e-7 at degree 10
     assert np.sum(W) == pytest.approx(0.5, rel=1e-14)
     # towards vertex 2 = (0, 1)
+    # a slit tip: |grad u|^2 ~ 1/r; int_0^{pi/2} R(t) dt
+    exact_tip = quad(lambda t: 1.0 / (np.cos(t) + np.sin(t)), 0, np.pi / 2)[0]
+    got = np.sum(W * np.hypot(X[0], X[1]) ** -1.0)
+    assert got == pytest.approx(exact_tip, rel=1e-6)  # measured 2.3e-7
     # towards vertex 2 = (0, 1), a 45-degree corner facing the edge y = 0
     exact = quad(lambda t: 0.75 * (-np.sin(t)) ** (-4 / 3), -np.pi / 2, -np.pi / 4)[0]
     X, W = graded_rule(2, 10)

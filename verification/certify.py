@@ -32,7 +32,7 @@ from verification.json_file import read_json_object
 from .export import MANIFEST_SCHEMA
 from .importer import ELEMENTS, build_basis, check_domain, read_result
 from .mesh_certify import boundary_offsets
-from .norms import error_norms
+from .norms import error_norms, singular_point_of
 from .rates import FAIL, INCONCLUSIVE, PASS, judge, roundoff_floor
 
 log = logging.getLogger(__name__)
@@ -318,7 +318,7 @@ def _measure(case, problem, path, level, order, field, domain_tol, mean_free):
     offset = boundary_offsets(mesh, problem)["max_distance_over_h"]
     u = imported.dofs(values)
     norms = error_norms(imported.basis, u, case.u, case.grad, coefficient=case.coefficient,
-                        mean_free=mean_free)
+                        mean_free=mean_free, singular_point=singular_point_of(case))
     record = LevelRecord(level, str(path), mesh.cell_type, len(mesh.cells),
                          int(len(mesh.used)), int(imported.basis.N), mesh.h(), mesh.h_max(),
                          imported.curved, norms.to_dict(), offset, list(mesh.notes))

@@ -16,12 +16,11 @@ import time
 from dataclasses import asdict, dataclass
 
 import numpy as np
-from skfem import CellBasis
 
 from lapsolve.solve import solve
 from lapsolve.stream import basis_gradients, stream_function
 
-from .norms import quadrature_degree
+from .norms import element_groups
 from .rates import expected_orders
 
 
@@ -44,81 +43,18 @@ class EffectivityRow:
         return asdict(self)
 
 
-REFERENCE_VERTICES = np.array([[0.0, 0.0], [1.0, 0.0], [0.0, 1.0]])
-
-
-def graded_rule(vertex, degree, levels=24):
-    """A composite rule on the reference triangle, graded towards one vertex.
-
-    The triangle is split into four by its edge midpoints; the three children away
-    from ``vertex`` get a Gauss rule of ``degree``, the corner child is split
-    again, ``levels`` times (the last corner child keeps the plain rule). An
-    integrand like ``r**(-2/3)`` at the vertex (the squared gradient near a
-    re-entrant corner) is then integrated to about ``4**(-levels/3)`` relative
-    error, where a single rule of any degree stays a few per cent off.
-
-    Returns
-    -------
-    X : ndarray (2, n_points)
-    W : ndarray (n_points,)
-    """
-    from skfem.quadrature import get_quadrature
-    from skfem.refdom import RefTri
-
-    X0, W0 = get_quadrature(RefTri, degree)
-    corner = np.roll(REFERENCE_VERTICES, -vertex, axis=0)  # the vertex first
-    points, weights = [], []
-
-    def add(tri):
-        a, b, c = tri
-        det = abs((b[0] - a[0]) * (c[1] - a[1]) - (b[1] - a[1]) * (c[0] - a[0]))
-        points.append(a[:, None] + np.outer(b - a, X0[0]) + np.outer(c - a, X0[1]))
-        weights.append(W0 * det)
-
-    tri = corner
-    for _ in range(levels):
-        a, b, c = tri
-        ab, ac, bc = (a + b) / 2, (a + c) / 2, (b + c) / 2
-        add(np.array([ab, b, bc]))
-        add(np.array([ac, bc, c]))
-        add(np.array([ab, bc, ac]))
-        tri = np.array([a, ab, ac])
-    add(tri)
-    return np.hstack(points), np.concatenate(weights)
-
-
 def energy_errors(solution, stream, case):
     """``(e_u, e_sigma)``: ``|| grad(u - u_h) ||_k`` and ``|| k grad u - J grad psi_h ||_{1/k}``.
 
-    Rule of degree :func:`verification.norms.quadrature_degree`; triangles at the
-    case's singular point (if any) get :func:`graded_rule` towards it.
+    Quadrature of :func:`verification.norms.element_groups`: degree
+    ``max(6, 2p + 2)``, graded towards the case's singular point (if any).
     """
     basis = solution.basis
-    mesh = basis.mesh
-    degree = quadrature_degree(basis.elem.maxdeg)
     local_all = stream.local_values(basis.element_dofs)
     k_all = np.asarray(solution.disc.k_cell, float)
-    groups = [(np.arange(mesh.t.shape[1]), None)]
-    if case.singular_point is not None and case.singular_exponent < 1:
-        p = mesh.p[:, : mesh.t[:3].max() + 1]
-        node = int(np.argmin(np.hypot(p[0] - case.singular_point[0],
-                                      p[1] - case.singular_point[1])))
-        corner = mesh.t[:3] == node
-        touched = np.flatnonzero(corner.any(axis=0))
-        if len(touched) and np.hypot(*(p[:, node] - np.asarray(case.singular_point))) < 1e-9:
-            groups = [(np.flatnonzero(~corner.any(axis=0)), None)]
-            for v in range(3):
-                groups.append((np.flatnonzero(corner[v]), graded_rule(v, degree + 4)))
+    point = case.singular_point if case.singular_exponent < 1 else None
     e_u = e_s = 0.0
-    for elements, rule in groups:
-        if not len(elements):
-            continue
-        if rule is None:
-            cb = CellBasis(mesh, basis.elem, elements=elements, intorder=degree,
-                           dofs=basis.dofs)
-        else:
-            cb = CellBasis(mesh, basis.elem, elements=elements, quadrature=rule,
-                           dofs=basis.dofs)
+    for elements, cb in element_groups(basis, point):
         x = np.asarray(cb.global_coordinates())
         ex, ey = case.grad(x[0], x[1])
         k = k_all[elements][:, None]

@@ -39,7 +39,7 @@ from lapsolve.geometry import CircleLoop
 
 from . import rates
 from .grading import graded_mesh, grading_for
-from .norms import error_norms
+from .norms import error_norms, singular_point_of
 from .qoi import measure_qoi, neumann_data_vanish, order_caps
 
 log = logging.getLogger(__name__)
@@ -292,7 +292,7 @@ def solve_level(case, problem, order, mesh, solver, index, energy_stationary=Tru
     pure_neumann = all(s.kind != "dirichlet" for s in case.conditions.values())
     norms = error_norms(solution.basis, solution.u, case.u, case.grad,
                         coefficient=_cell_coefficient(problem, mesh, solution),
-                        mean_free=pure_neumann)
+                        mean_free=pure_neumann, singular_point=singular_point_of(case))
     qoi = measure_qoi(solution, case, energy_stationary)
     t2 = time.perf_counter()
     info = getattr(solution, "solver", None)
