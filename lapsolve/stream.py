@@ -218,8 +218,8 @@ def stream_function(solution, rtol=None, solver="auto"):
     result = StreamFunction(problem, mesh, disc, disc.order, psi, cuts, 0.0, 0.0, False,
                             residual_notes(solution), info, timings=timings,
                             notes=boundary.notes)
-    eta, energy = orthogonality(solution, result)
     local = result.local_values()
+    eta, energy = orthogonality(solution, result, local)
     result.eta, result.energy = eta, energy
     result.flux = float(local.max() - local.min()) or 1.0
     result.guaranteed = not result.conditions
@@ -282,13 +282,15 @@ def _plus_side_values(n, cuts, offsets):
     return eye + minus
 
 
-def orthogonality(solution, stream):
+def orthogonality(solution, stream, local=None):
     """``(|| k grad u_h - J grad psi_h ||_{1/k}, || grad u_h ||_k)`` by exact quadrature
-    on straight triangles (quadrature of degree ``2 p`` on curved ones)."""
+    on straight triangles (quadrature of degree ``2 p`` on curved ones); ``local``:
+    the stream function's element-local values if already at hand."""
     disc = solution.disc
     dofs = stream.element_dofs()
     (ux, uy), w = local_gradients(disc, solution.u[dofs])
-    (px, py), _ = local_gradients(disc, stream.local_values())
+    local = stream.local_values() if local is None else local
+    (px, py), _ = local_gradients(disc, local)
     k = np.asarray(disc.k_cell, float)[:, None]
     rx, ry = k * ux + py, k * uy - px  # k grad u - J grad psi, J (a, b) = (-b, a)
     eta = float(np.sqrt(np.sum(w / k * (rx**2 + ry**2))))
